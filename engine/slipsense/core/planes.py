@@ -1,0 +1,424 @@
+"""Planes through points: the three-point solution, batched total-least-squares fits, quality.
+
+Points are ``(N, 3)`` arrays (east, north, up) in metres.  Many point sets travel together as one
+flat array plus ``offsets`` (``G + 1`` indices, group ``g`` is ``points[offsets[g]:offsets[g+1]]``),
+so thousands of planes are fitted in a few vectorised steps.
+
+Method
+------
+The best-fit plane passes through the centroid with normal = the eigenvector of the smallest
+eigenvalue of the scatter matrix of the centred points (total least squares; Fernández 2005,
+"Obtaining a best fitting plane through 3D georeferenced data", J. Struct. Geol. 27(5)).  With the
+eigenvalues S1 >= S2 >= S3 Fernández defines coplanarity ``M = ln(S1/S3)`` and collinearity
+``K = ln(S1/S2) / ln(S2/S3)``; a plane is considered reliable for M > 4 and K < 0.8 (thresholds
+from memory, corroborated second-hand).  Three points give the exact plane of
+Vacher (2000), "Computational Geology 12 — Cramer's rule and the three-point problem".
+"""
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from ..errors import GeometryError
+from .orientation import dip_dir_to_strike, normal_to_plane
+
+__all__ = [
+    "GroupFit",
+    "fit_groups",
+    "three_point",
+    "assess_quality",
+    "QUALITY_LEVELS",
+    "QualityRules",
+    "PlaneResults",
+    "planes_from_points",
+    "align_normals",
+]
+
+#: Quality words, best first.
+QUALITY_LEVELS = ("good", "fair", "poor", "ill-posed")
+
+
+@dataclass(frozen=True)
+class GroupFit:
+    """Raw batched fit of ``G`` point groups (arrays of length ``G``).
+
+    Attributes
+    ----------
+    centroid : (G, 3) metres
+    normal : (G, 3) upward unit normals (NaN for groups with < 3 points)
+    eigvals : (G, 3) variances along the principal axes, m², descending (S1/n, S2/n, S3/n)
+    n_points : (G,) int
+    rms_m : (G,) rms distance of the points from the plane, m
+    relief_m : (G,) max − min elevation of the group's points, m
+    """
+
+    centroid: np.ndarray
+    normal: np.ndarray
+    eigvals: np.ndarray
+    n_points: np.ndarray
+    rms_m: np.ndarray
+    relief_m: np.ndarray
+
+
+def _group_index(offsets, n):
+    offsets = np.asarray(offsets, dtype=np.intp)
+    if offsets.ndim != 1 or offsets.size < 1 or offsets[0] != 0 or offsets[-1] != n:
+        raise GeometryError("offsets must start at 0 and end at the number of points")
+    if np.any(np.diff(offsets) < 0):
+        raise GeometryError("offsets must not decrease")
+    counts = np.diff(offsets)
+    return np.repeat(np.arange(counts.size), counts), counts
+
+
+def _group_sum(values, gid, n_groups):
+    """Sum rows of ``values`` (N, k) into ``n_groups`` groups; empty groups give 0."""
+    flat = values.reshape(values.shape[0], -1)
+    cols = [np.bincount(gid, weights=flat[:, j], minlength=n_groups) for j in range(flat.shape[1])]
+    return np.stack(cols, axis=-1).reshape((n_groups,) + values.shape[1:])
+
+
+def fit_groups(points, offsets, weights=None):
+    """Total-least-squares planes of many point groups at once.
+
+    Parameters
+    ----------
+    points : (N, 3) array, metres (east, north, up)
+        Rows with a NaN coordinate are ignored.
+    offsets : (G + 1,) int array
+        Group boundaries in ``points``.
+    weights : (N,) array of 0/1, optional
+        Extra mask; rows with weight 0 are ignored.
+
+    Returns
+    -------
+    GroupFit
+    """
+    p = np.asarray(points, dtype=float)
+    if p.ndim != 2 or p.shape[1] != 3:
+        raise GeometryError(f"points must have shape (N, 3), got {p.shape}")
+    gid, counts = _group_index(offsets, p.shape[0])
+    g = counts.size
+    w = np.all(np.isfinite(p), axis=1).astype(float)
+    if weights is not None:
+        w = w * (np.asarray(weights, dtype=float) > 0)
+    p0 = np.where(w[:, None] > 0, p, 0.0)
+    n = np.bincount(gid, weights=w, minlength=g)
+    # Subtract a per-group reference point first so sums stay small (UTM coordinates are ~1e6 m).
+    ref = np.zeros((g, 3))
+    nz = counts > 0
+    ref[nz] = np.nan_to_num(p[np.asarray(offsets)[:-1][nz]])
+    local = (p0 - ref[gid]) * w[:, None]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = _group_sum(local, gid, g) / n[:, None]
+    centred = (p0 - ref[gid] - np.nan_to_num(mean)[gid]) * w[:, None]
+    outer = centred[:, :, None] * centred[:, None, :]
+    scatter = _group_sum(outer.reshape(-1, 9), gid, g).reshape(g, 3, 3)
+    ok = n >= 3
+    scatter[~ok] = np.eye(3)
+    evals, evecs = np.linalg.eigh(scatter)  # ascending
+    normal = evecs[:, :, 0]
+    normal = normal * np.where(normal[:, 2] < 0, -1.0, 1.0)[:, None]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        var = evals[:, ::-1] / n[:, None]
+    var = np.clip(var, 0.0, None)
+    var[~ok] = np.nan
+    normal[~ok] = np.nan
+    centroid = ref + np.nan_to_num(mean)
+    centroid[n == 0] = np.nan
+    rms = np.sqrt(var[:, 2])
+    zz = np.where(w > 0, p[:, 2], np.nan)
+    zmax = np.full(g, -np.inf)
+    zmin = np.full(g, np.inf)
+    np.fmax.at(zmax, gid, zz)
+    np.fmin.at(zmin, gid, zz)
+    relief = np.where(n > 0, zmax - zmin, np.nan)
+    return GroupFit(centroid, normal, var, n.astype(int), rms, relief)
+
+
+def three_point(a, b, c):
+    """Exact plane through three points (east, north, up; metres).
+
+    Returns
+    -------
+    dip_dir, dip : float or ndarray, degrees
+        NaN where the three points are collinear (or coincide).
+
+    Notes
+    -----
+    ``n = (B − A) × (C − A)`` flipped upward; dip = acos(n_up/|n|), dip direction = atan2(n_E, n_N)
+    (Vacher 2000).
+    """
+    a, b, c = (np.asarray(v, dtype=float) for v in (a, b, c))
+    n = np.cross(b - a, c - a)
+    scale = np.linalg.norm(b - a, axis=-1) * np.linalg.norm(c - a, axis=-1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        degenerate = np.linalg.norm(n, axis=-1) <= 1e-9 * scale
+    degenerate = degenerate | ~(scale > 0)
+    n = np.where(np.asarray(degenerate)[..., None], np.nan, n)
+    return normal_to_plane(n)
+
+
+def align_normals(normals, reference):
+    """Flip ``normals`` (..., 3) so each points to the same side as ``reference`` (..., 3)."""
+    s = np.sign(np.sum(normals * reference, axis=-1))
+    s = np.where(s == 0, 1.0, s)
+    return normals * s[..., None]
+
+
+@dataclass(frozen=True)
+class QualityRules:
+    """Thresholds of the quality words; the one place they live (written out in the README).
+
+    * ``ill-posed`` when any of: fewer than 3 usable points; the points' spread across their
+      best-fit line (sqrt of the middle eigenvalue) is below ``min_width_factor`` × the larger of
+      the position errors (collinear points, a straight trace on a planar slope or flat ground);
+      the elevation relief is below ``min_relief_factor`` × sigma-z (project choice: relief not
+      clearly above the DEM error); the Monte Carlo 95 % dip interval is wider than
+      ``ill_posed_dip_width``.
+    * ``good`` needs Fernández (2005) coplanarity M > 4 and collinearity K < 0.8 (from memory),
+      and, with Monte Carlo draws, dip interval ≤ ``good_dip_width`` and (for dips over
+      ``azimuth_min_dip``) dip-direction interval ≤ ``good_dip_dir_width``.
+    * ``fair``: M > 2 and K < 1.6 and intervals ≤ ``fair_*`` (project choice).
+    * ``poor``: everything else that is not ill-posed.
+    """
+
+    min_width_factor: float = 3.0
+    min_relief_factor: float = 3.0
+    ill_posed_dip_width: float = 45.0
+    good_m: float = 4.0
+    good_k: float = 0.8
+    fair_m: float = 2.0
+    fair_k: float = 1.6
+    good_dip_width: float = 10.0
+    good_dip_dir_width: float = 20.0
+    fair_dip_width: float = 20.0
+    fair_dip_dir_width: float = 45.0
+    azimuth_min_dip: float = 15.0
+
+
+def assess_quality(
+    n_points,
+    eigvals,
+    relief_m,
+    sigma_xy_m=0.0,
+    sigma_z_m=0.0,
+    dip=None,
+    dip_width=None,
+    dip_dir_width=None,
+    rules=QualityRules(),
+):
+    """Quality word and reason for each fitted plane (the only place the criteria live).
+
+    Parameters
+    ----------
+    n_points : (G,) int
+    eigvals : (G, 3) variances (m²) along principal axes, descending
+    relief_m : (G,) metres
+    sigma_xy_m, sigma_z_m : float
+        Horizontal and vertical position errors (1 sigma, metres) assumed for the points.
+    dip, dip_width, dip_dir_width : (G,) degrees, optional
+        Fitted dip and widths of the Monte Carlo 95 % intervals (NaN or None when no draws).
+
+    Returns
+    -------
+    quality : (G,) array of str, one of :data:`QUALITY_LEVELS`
+    reason : (G,) array of str, empty for ``good``
+    coplanarity, collinearity : (G,) float
+        Fernández (2005) M and K (NaN where undefined).
+    """
+    r = rules
+    n = np.asarray(n_points)
+    ev = np.asarray(eigvals, dtype=float)
+    g = n.shape[0]
+    s1, s2, s3 = ev[:, 0], ev[:, 1], ev[:, 2]
+    tiny = 1e-300
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m = np.log((s1 + tiny) / (s3 + tiny))
+        k = np.log((s1 + tiny) / (s2 + tiny)) / np.log((s2 + tiny) / (s3 + tiny))
+    nanarr = np.full(g, np.nan)
+    dip = nanarr if dip is None else np.asarray(dip, dtype=float)
+    dw = nanarr if dip_width is None else np.asarray(dip_width, dtype=float)
+    aw = nanarr if dip_dir_width is None else np.asarray(dip_dir_width, dtype=float)
+    err = max(float(sigma_xy_m), float(sigma_z_m))
+    width = np.sqrt(np.clip(s2, 0, None))
+    quality = np.full(g, "poor", dtype=object)
+    reason = np.full(g, "", dtype=object)
+
+    def mark(mask, word, why):
+        sel = mask & (reason == "")
+        quality[sel] = word
+        reason[sel] = why
+
+    few = ~(n >= 3)
+    mark(few, "ill-posed", "fewer than 3 usable points")
+    collinear = (width <= r.min_width_factor * err) | (s2 <= 1e-12 * np.maximum(s1, tiny))
+    mark(collinear & ~few, "ill-posed", "points are (nearly) collinear: a straight trace on planar ground")
+    low = (float(sigma_z_m) > 0) & (np.asarray(relief_m) < r.min_relief_factor * float(sigma_z_m))
+    mark(low, "ill-posed", "relief is not clearly above the DEM error")
+    mark(dw > r.ill_posed_dip_width, "ill-posed", "Monte Carlo dip interval is too wide to constrain the plane")
+    steep = dip > r.azimuth_min_dip
+    good = (m > r.good_m) & (k < r.good_k) & ~(dw > r.good_dip_width) & ~(steep & (aw > r.good_dip_dir_width))
+    fair = (m > r.fair_m) & (k < r.fair_k) & ~(dw > r.fair_dip_width) & ~(steep & (aw > r.fair_dip_dir_width))
+    rest = reason == ""
+    quality[rest & good] = "good"
+    quality[rest & ~good & fair] = "fair"
+    reason[rest & ~good & fair] = "weaker coplanarity or wider intervals than 'good'"
+    reason[rest & ~good & ~fair] = "low coplanarity (M), high collinearity (K) or wide intervals"
+    m = np.where(few, np.nan, m)
+    k = np.where(few, np.nan, k)
+    return quality.astype(str), reason.astype(str), m, k
+
+
+_RESULT_FIELDS = (
+    "dip_dir", "dip", "strike", "dip_lo95", "dip_hi95", "dip_dir_lo95", "dip_dir_hi95",
+    "n_points", "relief_m", "rms_m", "coplanarity", "collinearity", "quality", "reason",
+    "centroid_x", "centroid_y", "centroid_z",
+)
+
+
+@dataclass(frozen=True)
+class PlaneResults:
+    """Fitted planes, one row per group; every field an equal-length array.
+
+    Angles in degrees (dip direction / dip, right-hand-rule strike, grid north of the working CRS);
+    lengths in metres.  ``*_lo95``/``*_hi95`` bound the central 95 % of the Monte Carlo draws (NaN
+    without draws; a dip-direction interval with lo > hi wraps through north).  Rows whose quality is
+    ``ill-posed`` carry NaN orientation: no confident value is given.
+    """
+
+    dip_dir: np.ndarray
+    dip: np.ndarray
+    strike: np.ndarray
+    dip_lo95: np.ndarray
+    dip_hi95: np.ndarray
+    dip_dir_lo95: np.ndarray
+    dip_dir_hi95: np.ndarray
+    n_points: np.ndarray
+    relief_m: np.ndarray
+    rms_m: np.ndarray
+    coplanarity: np.ndarray
+    collinearity: np.ndarray
+    quality: np.ndarray
+    reason: np.ndarray
+    centroid_x: np.ndarray
+    centroid_y: np.ndarray
+    centroid_z: np.ndarray
+
+    def __len__(self):
+        return len(self.dip)
+
+    def columns(self):
+        """The fields as a dict of arrays, ready for a layer writer."""
+        return {f.name: getattr(self, f.name) for f in fields(self)}
+
+    def normals(self):
+        """Upward unit normals (G, 3) of the planes (NaN rows for ill-posed)."""
+        from .orientation import plane_to_normal
+
+        dd = np.nan_to_num(self.dip_dir)
+        d = np.nan_to_num(self.dip)
+        n = plane_to_normal(dd, d)
+        return np.where(np.isfinite(self.dip)[:, None], n, np.nan)
+
+    def centroids(self):
+        return np.stack([self.centroid_x, self.centroid_y, self.centroid_z], axis=-1)
+
+
+def _interval_stats(reference_normal, draw_normals):
+    """Dip interval and dip-direction deviation interval (degrees) from Monte Carlo normals.
+
+    Each draw's normal is first turned to the side of the reference normal, so near-vertical
+    planes whose draws dip either way stay continuous: a draw dip above 90 means "dips the other
+    way".  Returns ``dip_lo, dip_hi, dev_lo, dev_hi`` where the dev values are dip-direction
+    deviations from the reference, wrapped to (-180, 180].
+    """
+    aligned = align_normals(draw_normals, reference_normal[None])
+    dip_s = np.degrees(np.arccos(np.clip(aligned[..., 2], -1.0, 1.0)))
+    dd_s = np.degrees(np.arctan2(aligned[..., 0], aligned[..., 1]))
+    dd0 = np.degrees(np.arctan2(reference_normal[:, 0], reference_normal[:, 1]))
+    dev = (dd_s - dd0[None] + 180.0) % 360.0 - 180.0
+    dip_lo, dip_hi = np.nanpercentile(dip_s, [2.5, 97.5], axis=0)
+    dev_lo, dev_hi = np.nanpercentile(dev, [2.5, 97.5], axis=0)
+    return dip_lo, dip_hi, dev_lo, dev_hi
+
+
+def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=0, seed=0,
+                       perturb=None, rules=QualityRules()):
+    """Fit planes to point groups with Monte Carlo intervals and quality words.
+
+    Parameters
+    ----------
+    points : (N, 3) metres (east, north, up); NaN rows are ignored.
+    offsets : (G + 1,) group boundaries.
+    sigma_xy_m, sigma_z_m : float
+        1-sigma horizontal and vertical position errors, metres.
+    draws : int
+        Number of Monte Carlo draws (0: no intervals).
+    seed : int
+        Seed of the random generator (results are reproducible for a seed).
+    perturb : callable, optional
+        ``perturb(rng) -> (N, 3)`` returning one perturbed copy of ``points`` (NaN where a draw
+        loses a point).  Default: independent Gaussian errors of ``sigma_xy_m`` in x and y and
+        ``sigma_z_m`` in z on every point.  Trace fits pass a perturbation that moves digitised
+        vertices and re-samples the DEM.
+
+    Returns
+    -------
+    PlaneResults
+    """
+    pts = np.asarray(points, dtype=float)
+    fit = fit_groups(pts, offsets)
+    dip_dir, dip = normal_to_plane(fit.normal)
+    dip_dir = np.atleast_1d(dip_dir)
+    dip = np.atleast_1d(dip)
+    g = dip.shape[0]
+    lo = np.full(g, np.nan)
+    hi = np.full(g, np.nan)
+    dlo = np.full(g, np.nan)
+    dhi = np.full(g, np.nan)
+    if draws and draws > 0 and (sigma_xy_m > 0 or sigma_z_m > 0):
+        rng = np.random.default_rng(seed)
+        if perturb is None:
+            sig = np.array([sigma_xy_m, sigma_xy_m, sigma_z_m], dtype=float)
+
+            def perturb(r):
+                return pts + r.normal(size=pts.shape) * sig
+
+        normals = np.empty((int(draws), g, 3))
+        for i in range(int(draws)):
+            normals[i] = fit_groups(perturb(rng), offsets).normal
+        with np.errstate(invalid="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns of ill-posed groups
+            lo, hi, dlo, dhi = _interval_stats(fit.normal, normals)
+    dip_width = hi - lo
+    dd_width = dhi - dlo
+    quality, reason, m, k = assess_quality(
+        fit.n_points, fit.eigvals, fit.relief_m, sigma_xy_m, sigma_z_m, dip, dip_width, dd_width, rules
+    )
+    ill = quality == "ill-posed"
+    nan = np.nan
+    dip_out = np.where(ill, nan, dip)
+    dd_out = np.where(ill, nan, dip_dir)
+    return PlaneResults(
+        dip_dir=dd_out,
+        dip=dip_out,
+        strike=np.where(ill, nan, np.atleast_1d(dip_dir_to_strike(dip_dir))),
+        dip_lo95=np.where(ill, nan, np.clip(lo, 0.0, 90.0)),
+        dip_hi95=np.where(ill, nan, np.clip(hi, 0.0, 90.0)),
+        dip_dir_lo95=np.where(ill | ~np.isfinite(dlo), nan, np.mod(dip_dir + np.nan_to_num(dlo), 360.0)),
+        dip_dir_hi95=np.where(ill | ~np.isfinite(dhi), nan, np.mod(dip_dir + np.nan_to_num(dhi), 360.0)),
+        n_points=fit.n_points,
+        relief_m=fit.relief_m,
+        rms_m=fit.rms_m,
+        coplanarity=m,
+        collinearity=k,
+        quality=quality,
+        reason=np.where(
+            (~ill) & (hi > 90.0), np.char.add(reason.astype(str), "; interval includes planes dipping the other way"), reason
+        ).astype(str),
+        centroid_x=fit.centroid[:, 0],
+        centroid_y=fit.centroid[:, 1],
+        centroid_z=fit.centroid[:, 2],
+    )
