@@ -78,7 +78,8 @@ class Traces:
         """Build from a list of traces, each an (n, 2) array or a list of such parts."""
         xy, offs, owner = [], [0], []
         for t, line in enumerate(lines):
-            parts = [line] if np.ndim(line) == 2 else list(line)
+            is_parts = isinstance(line, (list, tuple)) and len(line) > 0 and np.ndim(line[0]) == 2
+            parts = list(line) if is_parts else [line]
             for part in parts:
                 a = np.asarray(part, dtype=float)[:, :2]
                 xy.append(a)

@@ -1,0 +1,148 @@
+"""DEM access through rasterio: only the windows under the features are read."""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..core.raster import Grid
+from ..errors import CRSError, DataError, FileFormatError
+from .crs import as_crs, require_projected, utm_crs_for
+
+__all__ = ["Dem", "open_dem"]
+
+
+@dataclass
+class Dem:
+    """An open DEM: its path, CRS, transform, nodata and size; read windows with :meth:`grid_for`.
+
+    Attributes
+    ----------
+    path : str
+    crs : pyproj.CRS of the raster
+    working_crs : pyproj.CRS the computation runs in (the raster's own when projected, else the UTM
+        zone of the raster's centre, into which windows are warped bilinearly)
+    z_factor : float multiplying raster values to get metres (e.g. 0.3048 for feet)
+    """
+
+    path: str
+    band: int
+    crs: object
+    working_crs: object
+    transform: tuple
+    width: int
+    height: int
+    nodata: float | None
+    z_factor: float = 1.0
+
+    @property
+    def warped(self):
+        return self.working_crs != self.crs
+
+    @property
+    def cell_size(self):
+        return min(abs(self.transform[0]), abs(self.transform[4]))
+
+    def grid_for(self, bounds, margin_m=0.0):
+        """Read the window covering ``bounds`` (xmin, ymin, xmax, ymax; working CRS) plus margin.
+
+        The window is aligned to the raster's cells, so two readers asking for the same bounds get
+        exactly the same cells.  Raises :class:`DataError` when the bounds miss the DEM.
+        """
+        import rasterio
+        from rasterio.windows import Window
+
+        if self.warped:
+            return self._warped_grid(bounds, margin_m)
+        a, _, c, _, e, f = self.transform
+        x0, y0, x1, y1 = bounds
+        x0 -= margin_m
+        y0 -= margin_m
+        x1 += margin_m
+        y1 += margin_m
+        col0 = max(int(math.floor((x0 - c) / a)), 0)
+        col1 = min(int(math.ceil((x1 - c) / a)), self.width)
+        row0 = max(int(math.floor((y1 - f) / e)), 0)
+        row1 = min(int(math.ceil((y0 - f) / e)), self.height)
+        if col1 - col0 < 2 or row1 - row0 < 2:
+            raise DataError(
+                f"the features lie off the DEM {self.path} (they cover x {bounds[0]:.0f}–{bounds[2]:.0f}, "
+                f"y {bounds[1]:.0f}–{bounds[3]:.0f} in its CRS)"
+            )
+        with rasterio.open(self.path) as ds:
+            data = ds.read(self.band, window=Window(col0, row0, col1 - col0, row1 - row0), masked=True)
+        values = np.ma.filled(data.astype(float), np.nan)
+        t = (a, 0.0, c + col0 * a, 0.0, e, f + row0 * e)
+        return Grid.from_array(values, t, None, self.z_factor)
+
+    def _warped_grid(self, bounds, margin_m):
+        import rasterio
+        from rasterio.warp import Resampling, reproject, transform_bounds
+
+        res = self._metric_resolution()
+        x0, y0, x1, y1 = (bounds[0] - margin_m, bounds[1] - margin_m, bounds[2] + margin_m, bounds[3] + margin_m)
+        cols = max(int(math.ceil((x1 - x0) / res)), 2)
+        rows = max(int(math.ceil((y1 - y0) / res)), 2)
+        t = (res, 0.0, x0, 0.0, -res, y1)
+        from affine import Affine
+
+        out = np.full((rows, cols), np.nan)
+        with rasterio.open(self.path) as ds:
+            reproject(
+                rasterio.band(ds, self.band), out, dst_transform=Affine(*t),
+                dst_crs=self.working_crs.to_wkt(), dst_nodata=np.nan, resampling=Resampling.bilinear,
+            )
+        if not np.isfinite(out).any():
+            lb = transform_bounds(self.working_crs.to_wkt(), self.crs.to_wkt(), x0, y0, x1, y1)
+            raise DataError(f"the features lie off the DEM {self.path} (lon/lat {lb})")
+        return Grid.from_array(out, t, None, self.z_factor)
+
+    def _metric_resolution(self):
+        lat = abs(self.transform[5] + self.transform[4] * self.height / 2)
+        deg = min(abs(self.transform[0]), abs(self.transform[4]))
+        return max(deg * 111_320.0 * max(math.cos(math.radians(min(lat, 89.0))), 0.05), 0.01)
+
+
+def open_dem(path, band=1, z_factor=1.0, working_crs=None):
+    """Open a DEM any GDAL driver reads (GeoTIFF, GeoPackage raster, VRT) and check it.
+
+    Parameters
+    ----------
+    path : str
+    band : int, 1-based
+    z_factor : float
+        Vertical unit factor to metres (1 for metres, 0.3048 for international feet).
+    working_crs : optional
+        Force the working CRS (the DEM is then warped into it when different).
+
+    Raises
+    ------
+    FileFormatError for unreadable files, CRSError for a missing CRS, DataError for a bad band.
+    """
+    import rasterio
+    from rasterio.errors import RasterioIOError
+
+    if not (np.isfinite(z_factor) and z_factor > 0):
+        raise DataError(f"vertical factor must be > 0, got {z_factor!r}")
+    try:
+        ds = rasterio.open(path)
+    except RasterioIOError as exc:
+        raise FileFormatError(f"cannot open DEM {path}: {exc}") from exc
+    with ds:
+        if not 1 <= band <= ds.count:
+            raise DataError(f"DEM {path} has {ds.count} band(s); band {band} does not exist")
+        crs = as_crs(ds.crs.to_wkt() if ds.crs else None, f"DEM {path}")
+        t = tuple(ds.transform)[:6]
+        if t[1] != 0 or t[3] != 0:
+            raise DataError(f"DEM {path} is rotated; warp it north-up first")
+        if crs.is_geographic:
+            lon = t[2] + t[0] * ds.width / 2
+            lat = t[5] + t[4] * ds.height / 2
+            work = utm_crs_for(lon, lat) if working_crs is None else working_crs
+        else:
+            work = require_projected(crs, f"DEM {path}") if working_crs is None else working_crs
+        if working_crs is not None:
+            require_projected(work, "the working CRS")
+        nodata = ds.nodatavals[band - 1]
+        return Dem(str(path), band, crs, work, t, ds.width, ds.height, nodata, float(z_factor))

@@ -1,0 +1,13 @@
+#!/usr/bin/env bash
+# Install Debian's QGIS 3.22 (PyQGIS + qgis_process) and pytest for Debian's Python, if missing.
+set -euo pipefail
+need=()
+[ -x /usr/bin/qgis_process.bin ] || need+=(qgis qgis-providers python3-qgis)
+/usr/bin/python3 -c "import qgis.core" 2>/dev/null || need+=(python3-qgis)
+/usr/bin/python3 -c "import pytest" 2>/dev/null || need+=(python3-pytest)
+if [ ${#need[@]} -eq 0 ]; then exit 0; fi
+SUDO=""
+if [ "$(id -u)" != "0" ]; then SUDO="sudo"; fi
+echo "installing Debian packages: ${need[*]}"
+$SUDO apt-get update -qq
+DEBIAN_FRONTEND=noninteractive $SUDO apt-get install -y -qq --no-install-recommends "${need[@]}" >/dev/null
