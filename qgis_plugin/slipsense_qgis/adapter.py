@@ -311,7 +311,7 @@ def raster_window(layer, band, bounds, margin_m, what="the features", feedback=N
         )
     w, h = col1 - col0, row1 - row0
     rect = QgsRectangle(c + col0 * a, f + row1 * e, c + col1 * a, f + row0 * e)
-    block = prov.block(band, rect, w, h, feedback) if feedback is not None else prov.block(band, rect, w, h)
+    block = prov.block(band, rect, w, h)
     if block is None or not block.isValid() or block.width() != w or block.height() != h:
         raise QgsProcessingException("could not read the DEM cells (the data provider returned no block)")
     dtype = RASTER_NUMPY_TYPES.get(block.dataType())

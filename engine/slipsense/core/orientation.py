@@ -141,7 +141,9 @@ def normal_to_plane(normal):
     # Vertical planes: keep the given horizontal sense (up component is 0 either way).
     sign = np.where(np.abs(n[..., 2]) < _EPS, 1.0, sign)
     n = n * sign[..., None]
-    dip = np.degrees(np.arccos(np.clip(n[..., 2], -1.0, 1.0)))
+    # abs(): a normal whose up component is a rounding-level negative (kept unflipped above as a
+    # vertical plane) must still give a dip of at most 90.
+    dip = np.degrees(np.arccos(np.clip(np.abs(n[..., 2]), 0.0, 1.0)))
     horiz = np.hypot(n[..., 0], n[..., 1])
     dip_dir = np.where(horiz < 1e-10, 0.0, np.degrees(np.arctan2(n[..., 0], n[..., 1])))
     dip_dir = normalize_azimuth(dip_dir)
@@ -211,12 +213,20 @@ def dip_vector(dip_dir, dip):
     return line_to_vector(*np.broadcast_arrays(np.asarray(dip_dir, dtype=float), check_dip(dip)))
 
 
+def _axial_angle(a, b):
+    """Angle (degrees, 0–90) between unit vectors taken as axes.
+
+    atan2(|a × b|, |a · b|) rather than acos(|a · b|): acos loses about 1e-6 degrees near 0.
+    """
+    cross = np.linalg.norm(np.cross(a, b), axis=-1)
+    return np.degrees(np.arctan2(cross, np.abs(np.sum(a * b, axis=-1))))
+
+
 def angle_between_lines(trend1, plunge1, trend2, plunge2):
     """Acute angle (degrees, 0–90) between lines taken as axes."""
     a = line_to_vector(trend1, plunge1)
     b = line_to_vector(trend2, plunge2)
-    c = np.abs(np.sum(a * b, axis=-1))
-    return _out(np.degrees(np.arccos(np.clip(c, 0.0, 1.0))))
+    return _out(_axial_angle(a, b))
 
 
 def angle_between_planes(dip_dir1, dip1, dip_dir2, dip2):
@@ -229,8 +239,7 @@ def angle_between_planes(dip_dir1, dip1, dip_dir2, dip2):
     """
     a = plane_to_normal(dip_dir1, dip1)
     b = plane_to_normal(dip_dir2, dip2)
-    c = np.abs(np.sum(a * b, axis=-1))
-    return _out(np.round(np.degrees(np.arccos(np.clip(c, 0.0, 1.0))), 10))
+    return _out(np.round(_axial_angle(a, b), 10))
 
 
 # --------------------------------------------------------------------------- text input

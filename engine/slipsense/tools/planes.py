@@ -211,7 +211,7 @@ def _check_angles(name, fids, trend, plunge, trend_field, plunge_field):
         if np.any(bad):
             k = int(np.flatnonzero(bad)[0])
             raise DataError(
-                f"{name} feature {fids[k]}: field {field!r} = {arr[k]!r} is outside [{lo:g}, {hi:g}] degrees"
+                f"{name} feature {fids[k]}: field {field!r} = {float(arr[k])!r} is outside [{lo:g}, {hi:g}] degrees"
             )
 
 

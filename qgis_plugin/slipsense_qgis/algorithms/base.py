@@ -187,7 +187,7 @@ class SlipsenseAlgorithm(QgsProcessingAlgorithm):
 
     def processAlgorithm(self, parameters, context, feedback):
         try:
-            result = self.run(parameters, context, feedback)
+            result = self.compute(parameters, context, feedback)
         except Canceled:
             raise QgsProcessingException("canceled") from None
         except SlipsenseError as exc:
@@ -195,7 +195,7 @@ class SlipsenseAlgorithm(QgsProcessingAlgorithm):
         feedback.setProgress(100)
         return result
 
-    def run(self, parameters, context, feedback):  # pragma: no cover - subclasses implement
+    def compute(self, parameters, context, feedback):  # pragma: no cover - subclasses implement
         raise NotImplementedError
 
     @staticmethod

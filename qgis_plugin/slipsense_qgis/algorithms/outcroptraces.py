@@ -48,7 +48,7 @@ class OutcropTracesAlgorithm(SlipsenseAlgorithm):
         self.add_count_outputs(extra=(("N_PREDICTED", "Number of planes with a predicted trace"),
                                       ("N_PLANES", "Number of planes")), quality=False)
 
-    def run(self, parameters, context, feedback):
+    def compute(self, parameters, context, feedback):
         self.refuse_overwrite(parameters, context, (self.OUTPUT,), vector_inputs=(self.PLANES,),
                               raster_inputs=(self.DEM,))
         dem = self.parameterAsRasterLayer(parameters, self.DEM, context)

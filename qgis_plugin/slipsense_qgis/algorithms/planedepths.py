@@ -75,7 +75,7 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
                                       ("N_HITS", "Number of pairs where the hole meets the plane")),
                                quality=False)
 
-    def run(self, parameters, context, feedback):
+    def compute(self, parameters, context, feedback):
         self.refuse_overwrite(parameters, context, (self.OUTPUT,),
                               vector_inputs=(self.COLLARS, self.PLANES), raster_inputs=(self.DEM,))
         dem = self.parameterAsRasterLayer(parameters, self.DEM, context)

@@ -73,7 +73,7 @@ class PointPlanesAlgorithm(SlipsenseAlgorithm):
         self.addParameter(QgsProcessingParameterFeatureSink(self.OUTPUT, self.tr("Point planes"), SOURCE_POINT))
         self.add_count_outputs(extra=(("N_GROUPS", "Number of groups"),))
 
-    def run(self, parameters, context, feedback):
+    def compute(self, parameters, context, feedback):
         self.refuse_overwrite(parameters, context, (self.OUTPUT,), vector_inputs=(self.INPUT,),
                               raster_inputs=(self.DEM,))
         source = self.source(parameters, self.INPUT, context, "the point layer")

@@ -42,7 +42,7 @@ class StructureContoursAlgorithm(SlipsenseAlgorithm):
         self.add_count_outputs(extra=(("N_CONTOURS", "Number of contour lines"),
                                       ("N_PLANES", "Number of planes")), quality=False)
 
-    def run(self, parameters, context, feedback):
+    def compute(self, parameters, context, feedback):
         self.refuse_overwrite(parameters, context, (self.OUTPUT,), vector_inputs=(self.PLANES,))
         src = planes_source(self, parameters, self.PLANES, context)
         crs = adapter.require_crs(src.sourceCrs(), "the plane layer")

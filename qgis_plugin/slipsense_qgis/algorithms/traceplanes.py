@@ -79,7 +79,7 @@ class TracePlanesAlgorithm(SlipsenseAlgorithm):
                                       ("N_POINTS_DROPPED", "Points dropped on DEM nodata")))
         self.addOutput(QgsProcessingOutputNumber("N_POINTS", self.tr("Number of fitted points")))
 
-    def run(self, parameters, context, feedback):
+    def compute(self, parameters, context, feedback):
         self.refuse_overwrite(parameters, context, (self.OUTPUT, self.OUTPUT_WINDOWS),
                               vector_inputs=(self.INPUT,), raster_inputs=(self.DEM,))
         dem = self.parameterAsRasterLayer(parameters, self.DEM, context)
