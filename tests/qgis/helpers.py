@@ -54,8 +54,8 @@ def layer(path, table):
 
 
 def layer_rows(lyr):
-    """Attributes of a layer as dicts with None for NULL."""
-    names = lyr.fields().names()
+    """Attributes of a layer as dicts with None for NULL (without the GeoPackage ``fid``)."""
+    names = [n for n in lyr.fields().names() if n != "fid"]
     out = []
     for f in lyr.getFeatures():
         row = {}

@@ -22,7 +22,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from ..errors import GeometryError
-from .orientation import dip_dir_to_strike, normal_to_plane
+from .orientation import dip_dir_to_strike, normal_to_plane, normalize_azimuth
 
 __all__ = [
     "GroupFit",
@@ -407,8 +407,8 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
         strike=np.where(ill, nan, np.atleast_1d(dip_dir_to_strike(dip_dir))),
         dip_lo95=np.where(ill, nan, np.clip(lo, 0.0, 90.0)),
         dip_hi95=np.where(ill, nan, np.clip(hi, 0.0, 90.0)),
-        dip_dir_lo95=np.where(ill | ~np.isfinite(dlo), nan, np.mod(dip_dir + np.nan_to_num(dlo), 360.0)),
-        dip_dir_hi95=np.where(ill | ~np.isfinite(dhi), nan, np.mod(dip_dir + np.nan_to_num(dhi), 360.0)),
+        dip_dir_lo95=np.where(ill | ~np.isfinite(dlo), nan, normalize_azimuth(dip_dir + np.nan_to_num(dlo))),
+        dip_dir_hi95=np.where(ill | ~np.isfinite(dhi), nan, normalize_azimuth(dip_dir + np.nan_to_num(dhi))),
         n_points=fit.n_points,
         relief_m=fit.relief_m,
         rms_m=fit.rms_m,

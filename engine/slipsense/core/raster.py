@@ -85,7 +85,8 @@ def sample_bilinear(grid, x, y):
 
     Between cell centres the four surrounding centres are blended; in the outer half cell the
     nearest edge values are used.  Points outside the grid, or with any of their four neighbours
-    NaN (nodata), give NaN.
+    NaN (nodata) that carries a non-zero weight, give NaN; so a valid cell's own centre returns its
+    value exactly, whichever side a nodata cell lies on.
 
     Parameters
     ----------
@@ -114,14 +115,20 @@ def sample_bilinear(grid, x, y):
     fc = col - c0
     fr = row - r0
     v = grid.values
+
+    def term(vals, w):
+        # Only neighbours that carry weight count: a NaN (nodata) neighbour with weight > 0 makes
+        # the result NaN, one with weight 0 (the point lies on the far cell-centre line) does not.
+        # Without this, NaN * 0 poisoned exact cell-centre values on one side of a nodata cell
+        # only (left/above it but not right/below), an asymmetric one-cell growth of nodata.
+        return np.where(w > 0, vals * w, 0.0)
+
     z = (
-        v[r0, c0] * (1 - fc) * (1 - fr)
-        + v[r0, c1] * fc * (1 - fr)
-        + v[r1, c0] * (1 - fc) * fr
-        + v[r1, c1] * fc * fr
+        term(v[r0, c0], (1 - fc) * (1 - fr))
+        + term(v[r0, c1], fc * (1 - fr))
+        + term(v[r1, c0], (1 - fc) * fr)
+        + term(v[r1, c1], fc * fr)
     )
-    # A neighbour with zero weight that is NaN would still poison z: that is intended (nodata
-    # next to the point means the DEM is not trusted there).
     return np.where(outside, np.nan, z)
 
 
@@ -141,7 +148,7 @@ def contour_segments(x, y, values, level=0.0):
     -------
     ndarray (S, 2, 2)
         Segment end points ``[[x0, y0], [x1, y1]]``.  Saddle squares are split by the square's
-        mean value.  Values exactly at ``level`` count as above it.
+        mean value.  Values exactly at ``level`` count as above it.  No zero-length segments.
     """
     v = np.asarray(values, dtype=float) - level
     if v.shape[0] < 2 or v.shape[1] < 2:
@@ -200,4 +207,10 @@ def contour_segments(x, y, values, level=0.0):
         e2 = np.where(join[:, None], p[:, 3], p[:, 1])
         segs.append(np.stack([s1, e1], 1))
         segs.append(np.stack([s2, e2], 1))
-    return np.concatenate(segs, 0) if segs else np.zeros((0, 2, 2))
+    if not segs:
+        return np.zeros((0, 2, 2))
+    out = np.concatenate(segs, 0)
+    # A contour through a grid vertex whose value is exactly the level gives, in the square where
+    # that vertex is the only one "above", two crossings at the vertex itself: drop those
+    # zero-length segments (they join nothing).
+    return out[np.any(out[:, 0] != out[:, 1], axis=1)]
