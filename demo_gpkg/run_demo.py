@@ -42,7 +42,7 @@ def main(argv=None):
         sys.exit(f"demo data missing: run python {HERE / 'generate_demo.py'} first")
 
     _slipsense("trace-planes", "--dem", dem, "--traces", gpkg, "--layer", "fault_traces",
-               "--id-field", "fault_id", "--sigma-xy", "4", "--sigma-z", "2", "--draws", "200",
+               "--id-field", "fault_id", "--draws", "200",
                "--window", "1500", "--out", out, "--quiet")
     planes_file = out_dir / "demo_planes_only.gpkg"
     # Derived layers read the plane layer; inputs are never written, so they read a copy.
@@ -85,15 +85,15 @@ def _print_summary(out):
         for f in json.loads(tpath.read_text()).get("faults", []):
             truth[f["fault_id"]] = f
     df = pyogrio.read_dataframe(str(out), layer="trace_planes", read_geometry=False)
-    print("\nfault  dip_dir [95%]          dip [95%]          quality    (ground truth of the invented scenario)")
+    print("\nfault  dip_dir [95% interval]      dip [95% interval]    quality  misfit  truth (invented scenario)")
     for r in df.itertuples():
         t = truth.get(r.trace_id, {})
         tt = f"{t['dip_dir']:.1f}/{t['dip']:.1f}" if t else ""
         if r.quality == "ill-posed":
             print(f"{r.trace_id:5}  ill-posed: {r.reason}")
             continue
-        print(f"{r.trace_id:5}  {r.dip_dir:6.1f} [{r.dip_dir_lo95:5.1f}, {r.dip_dir_hi95:5.1f}]  "
-              f"{r.dip:5.1f} [{r.dip_lo95:4.1f}, {r.dip_hi95:4.1f}]  {r.quality:9}  {tt}")
+        print(f"{r.trace_id:5}  {r.dip_dir:6.2f} [{r.dip_dir_lo95:6.2f}, {r.dip_dir_hi95:6.2f}]  "
+              f"{r.dip:5.2f} [{r.dip_lo95:5.2f}, {r.dip_hi95:5.2f}]  {r.quality:7}  {r.misfit_ratio:5.2f}   {tt}")
     layers = [n for n, _ in pyogrio.list_layers(str(out))]
     print("layers: " + ", ".join(layers))
 

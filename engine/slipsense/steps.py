@@ -222,7 +222,7 @@ def _subgrid(grid, xy, margin):
 
 
 def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir, dip, centroids,
-                 *, collar_z=None, pair_plane=None):
+                 *, collar_z=None, pair_plane=None, dip_interval=None, dip_dir_interval=None):
     """Depth to fitted planes below points (e.g. planned borehole collars).
 
     Parameters
@@ -233,6 +233,10 @@ def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir,
     plane_ids, dip_dir, dip, centroids : the planes (G,)
     pair_plane : (C,) str, optional
         The plane id each collar is to be intersected with; default every collar × every plane.
+    dip_interval, dip_dir_interval : pairs of (G,) arrays (lo, hi), degrees, optional
+        The planes' 95 % intervals.  The depth range ``depth_lo95``/``depth_hi95`` is then the
+        smallest and largest depth over the planes at the corners of the two intervals (an
+        approximation that ignores the smaller uncertainty of the plane's position).
 
     Returns
     -------
@@ -277,12 +281,23 @@ def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir,
     cen = np.asarray(centroids, float).reshape(-1, 3)
     res = depth_to_plane(collars, trend[ci], plunge[ci], cen[pi], np.asarray(dip_dir, float)[pi],
                          np.asarray(dip, float)[pi])
+    lo_hi = np.full((2, ci.size), np.nan)
+    if dip_interval is not None and dip_dir_interval is not None and ci.size:
+        corners = []
+        for dpk in (np.asarray(dip_interval[0], float), np.asarray(dip_interval[1], float)):
+            for ddk in (np.asarray(dip_dir_interval[0], float), np.asarray(dip_dir_interval[1], float)):
+                r = depth_to_plane(collars, trend[ci], plunge[ci], cen[pi], ddk[pi], dpk[pi])
+                corners.append(r.depth_m)
+        corners = np.vstack(corners + [res.depth_m])
+        with np.errstate(invalid="ignore"):
+            any_nan = np.any(~np.isfinite(corners), axis=0)
+            lo_hi = np.where(any_nan, np.nan, np.vstack([corners.min(0), corners.max(0)]))
     ids_c = [str(collar_ids[k]) for k in ci]
     ids_p = [plane_ids[p] for p in pi]
     for a, b, st in zip(ids_c, ids_p, res.status):
         if st != "ok":
             warnings.append(f"collar {a} / plane {b}: {st}")
-    table = depth_table(ids_c, ids_p, collars, trend[ci], plunge[ci], res)
+    table = depth_table(ids_c, ids_p, collars, trend[ci], plunge[ci], res, lo_hi)
     return StepResult({"plane_depths": table},
                       {"collars": n_c, "pairs": len(ci), "hits": int(np.sum(res.status == "ok"))},
                       warnings)

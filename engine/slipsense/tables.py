@@ -25,7 +25,7 @@ __all__ = [
 PLANE_FIELDS = (
     ("dip_dir", "float"), ("dip", "float"), ("strike", "float"),
     ("dip_lo95", "float"), ("dip_hi95", "float"), ("dip_dir_lo95", "float"), ("dip_dir_hi95", "float"),
-    ("n_points", "int"), ("relief_m", "float"), ("rms_m", "float"),
+    ("n_points", "int"), ("relief_m", "float"), ("rms_m", "float"), ("misfit_ratio", "float"),
     ("coplanarity", "float"), ("collinearity", "float"),
     ("quality", "str"), ("reason", "str"),
     ("centroid_x", "float"), ("centroid_y", "float"), ("centroid_z", "float"),
@@ -162,7 +162,7 @@ def outcrop_table(plane_ids, segments, max_distance_m):
     return Table(cols, types, "MultiLineString", geoms, None)
 
 
-def depth_table(collar_ids, plane_ids, collars, trend, plunge, res):
+def depth_table(collar_ids, plane_ids, collars, trend, plunge, res, depth_range=None):
     """Table of ``plane_depths``: one row per (collar, plane) pair, geometry the 3-D intersection
     point (or the collar where the hole never meets the plane)."""
     cx, cy, cz = np.asarray(collars, float).T
@@ -171,11 +171,14 @@ def depth_table(collar_ids, plane_ids, collars, trend, plunge, res):
         "plane_id": np.asarray([str(p) for p in plane_ids], dtype=object),
         "collar_z": cz, "trend": np.asarray(trend, float), "plunge": np.asarray(plunge, float),
         "along_hole_m": res.along_m, "depth_m": res.depth_m,
+        "depth_lo95": np.full(len(cx), np.nan) if depth_range is None else depth_range[0],
+        "depth_hi95": np.full(len(cx), np.nan) if depth_range is None else depth_range[1],
         "hit_x": res.x, "hit_y": res.y, "hit_z": res.z,
         "status": np.asarray(res.status, dtype=object),
     }
     types = {"collar_id": "str", "plane_id": "str", "collar_z": "float", "trend": "float",
-             "plunge": "float", "along_hole_m": "float", "depth_m": "float", "hit_x": "float",
+             "plunge": "float", "along_hole_m": "float", "depth_m": "float", "depth_lo95": "float",
+             "depth_hi95": "float", "hit_x": "float",
              "hit_y": "float", "hit_z": "float", "status": "str"}
     geoms = []
     for i in range(len(cx)):

@@ -8,43 +8,19 @@ Without PyQGIS the tests are skipped, except with ``CI=true``, where that is an 
 """
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 from pathlib import Path
 
 import pytest
 
-REPO = Path(__file__).resolve().parents[2]
-PLUGIN_DIR = REPO / "qgis_plugin"
-ENGINE_DIR = REPO / "engine"
-PLUGIN_ID = "slipsense_qgis"
-PROVIDER_ID = "slipsense"
-QGIS_PROCESS = "/usr/bin/qgis_process.bin"
-DEMO_DIR = REPO / "demo_gpkg"
-IN_CI = os.environ.get("CI", "").lower() in ("1", "true", "yes")
+from qgishelpers import DEMO_DIR, ENGINE_DIR, IN_CI, PLUGIN_DIR, PLUGIN_ID, PROVIDER_ID, REPO, base_env, qgis_process_env
 
 _TMP = Path(tempfile.mkdtemp(prefix="slipsense-qgis-tests-"))
 
 
-def _base_env(root):
-    """Variables every QGIS process of the tests runs with (recipe section 0)."""
-    root = Path(root)
-    for sub in ("home", "profile", "runtime"):
-        (root / sub).mkdir(parents=True, exist_ok=True)
-    os.chmod(root / "runtime", 0o700)
-    return {
-        "QT_QPA_PLATFORM": "offscreen",
-        "HOME": str(root / "home"),
-        "QGIS_CUSTOM_CONFIG_PATH": str(root / "profile"),
-        "XDG_RUNTIME_DIR": str(root / "runtime"),
-        "PYTHONWARNINGS": "ignore::DeprecationWarning",
-        "LC_ALL": "C.UTF-8",
-    }
-
-
 # Environment before anything touches QGIS.
-os.environ.update(_base_env(_TMP / "inproc"))
+os.environ.update(base_env(_TMP / "inproc"))
 if str(ENGINE_DIR) not in sys.path:
     sys.path.insert(0, str(ENGINE_DIR))
 
@@ -64,8 +40,10 @@ except ImportError as exc:  # pragma: no cover - depends on the interpreter
 
 
 def pytest_collection_modifyitems(config, items):
+    here = Path(__file__).parent
     for item in items:
-        item.add_marker(pytest.mark.qgis)
+        if here in Path(str(item.fspath)).parents:
+            item.add_marker(pytest.mark.qgis)
 
 
 @pytest.fixture(scope="session")
@@ -106,7 +84,7 @@ def pytest_sessionfinish(session, exitstatus):
 @pytest.fixture(scope="session")
 def synth(qgis_app):
     """Synthetic DEM + GeoPackage (see synthdata.py) in a session directory."""
-    import synthdata
+    import qgissynth as synthdata
 
     d = _TMP / "synth"
     d.mkdir(exist_ok=True)
@@ -123,7 +101,11 @@ def demo(qgis_app):
     gpkg, dem = DEMO_DIR / "demo.gpkg", DEMO_DIR / "dem.tif"
     if not (gpkg.exists() and dem.exists()):
         pytest.skip(f"demo data not found ({gpkg.relative_to(REPO)}, {dem.relative_to(REPO)})")
-    return {"dir": DEMO_DIR, "dem": str(dem), "gpkg": str(gpkg)}
+    d = _TMP / "demo"  # a private copy: the tests never touch the repository's files
+    d.mkdir(exist_ok=True)
+    for f in (gpkg, dem):
+        shutil.copyfile(f, d / f.name)
+    return {"dir": d, "dem": str(d / dem.name), "gpkg": str(d / gpkg.name)}
 
 
 @pytest.fixture
@@ -133,32 +115,6 @@ def tmp_out(tmp_path):
 
 # ---------------------------------------------------------------------------------------------
 # qgis_process
-
-
-def qgis_process_env(root, plugin_path=True, engine_path=True, enable=True):
-    """Environment for a qgis_process.bin child with its own throwaway profile under ``root``."""
-    env = {k: v for k, v in os.environ.items()
-           if k not in ("QGIS_PLUGINPATH", "PYTHONPATH", "PYTHONHOME", "QGIS_PREFIX_PATH")}
-    env.update(_base_env(root))
-    env["PATH"] = "/usr/bin:" + env.get("PATH", "")
-    if plugin_path:
-        env["QGIS_PLUGINPATH"] = str(PLUGIN_DIR)
-    if engine_path:
-        env["PYTHONPATH"] = str(ENGINE_DIR)
-    if enable:
-        ini = Path(root) / "profile" / "profiles" / "default" / "QGIS" / "QGIS3.ini"
-        ini.parent.mkdir(parents=True, exist_ok=True)
-        ini.write_text(f"[PythonPlugins]\n{PLUGIN_ID}=true\n")
-    return env
-
-
-def run_qgis_process(args, env, timeout=120):
-    if not Path(QGIS_PROCESS).exists():
-        if IN_CI:
-            pytest.fail(f"{QGIS_PROCESS} is missing")
-        pytest.skip(f"{QGIS_PROCESS} is missing")
-    return subprocess.run([QGIS_PROCESS, *args], env=env, capture_output=True, text=True,
-                          timeout=timeout, stdin=subprocess.DEVNULL)
 
 
 @pytest.fixture(scope="session")

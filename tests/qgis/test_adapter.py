@@ -2,7 +2,7 @@
 import numpy as np
 import pytest
 
-import reference as ref
+import qgisreference as ref
 
 
 @pytest.fixture(scope="module")

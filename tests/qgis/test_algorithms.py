@@ -3,8 +3,8 @@ outputs equal the engine's results on the same data read without QGIS, field by 
 import numpy as np
 import pytest
 
-import reference as ref
-from helpers import assert_rows_equal, geometries, gpkg_columns, gpkg_tables, layer, layer_rows, ogr_dest, run
+import qgisreference as ref
+from qgishelpers import assert_rows_equal, geometries, gpkg_columns, gpkg_tables, layer, layer_rows, ogr_dest, run
 
 TRACE_KW = dict(sigma_xy_m=5.0, sigma_z_m=2.0, draws=60, seed=3)
 
@@ -214,19 +214,31 @@ def test_demo_all_algorithms(demo, tmp_path):
     res = run("slipsense:traceplanes", {"INPUT": demo["gpkg"] + "|layername=fault_traces", "ID_FIELD": "fault_id",
                                         "DEM": demo["dem"], "OUTPUT": ogr_dest(out, "trace_planes")})
     expect = ref.trace_planes(demo["gpkg"], "fault_traces", demo["dem"], "fault_id")
-    assert_rows_equal(layer_rows(layer(out, "trace_planes")), table_rows(expect.tables["trace_planes"]))
-    assert res["N_TRACES"] == len(expect.tables["trace_planes"])
+    rows = layer_rows(layer(out, "trace_planes"))
+    assert_rows_equal(rows, table_rows(expect.tables["trace_planes"]))
+    assert res["N_TRACES"] == len(expect.tables["trace_planes"]) == 5
+    # the demo's ground truth (demo_gpkg/README.md): dip direction / dip of F1-F5
+    truth = {"F1": (98, 60), "F2": (282, 58), "F3": (95, 27), "F4": (155, 87), "F5": (310, 70)}
+    for r in rows:
+        assert r["quality"] == "good", r
+        assert (r["dip_dir"], r["dip"]) == pytest.approx(truth[r["trace_id"]], abs=1.5), r
     res = run("slipsense:pointplanes", {"INPUT": demo["gpkg"] + "|layername=contact_points",
                                         "GROUP_FIELD": "group_id", "Z_FIELD": "z_m",
                                         "OUTPUT": ogr_dest(out, "point_planes")})
     expect = ref.point_planes(demo["gpkg"], "contact_points", "group_id", z_field="z_m")
-    assert_rows_equal(layer_rows(layer(out, "point_planes")), table_rows(expect.tables["point_planes"]))
+    rows = {r["plane_id"]: r for r in layer_rows(layer(out, "point_planes"))}
+    assert_rows_equal(list(rows.values()), table_rows(expect.tables["point_planes"]))
+    assert rows["collinear_test"]["quality"] == "ill-posed" and rows["collinear_test"]["dip"] is None
+    for g in ("bedA_grp1", "bedA_grp2", "bedA_grp3"):  # bed_A: 352/11
+        assert (rows[g]["dip_dir"], rows[g]["dip"]) == pytest.approx((352.0, 11.0), abs=0.01)
     run("slipsense:structurecontours", {"PLANES": out + "|layername=trace_planes",
                                         "OUTPUT": ogr_dest(out, "structure_contours")})
     run("slipsense:outcroptraces", {"PLANES": out + "|layername=trace_planes", "DEM": demo["dem"],
                                     "OUTPUT": ogr_dest(out, "outcrop_traces")})
-    run("slipsense:planedepths", {"COLLARS": demo["gpkg"] + "|layername=borehole_collars",
-                                  "PLANES": out + "|layername=trace_planes", "DEM": demo["dem"],
-                                  "OUTPUT": ogr_dest(out, "plane_depths")})
+    res = run("slipsense:planedepths", {"COLLARS": demo["gpkg"] + "|layername=borehole_collars",
+                                        "ID_FIELD": "hole_id", "TREND_FIELD": "trend", "PLUNGE_FIELD": "plunge",
+                                        "PLANES": out + "|layername=trace_planes", "DEM": demo["dem"],
+                                        "OUTPUT": ogr_dest(out, "plane_depths")})
+    assert res["N_PAIRS"] == 25 and res["N_HITS"] > 0
     assert set(gpkg_tables(out)) == {"trace_planes", "point_planes", "structure_contours", "outcrop_traces",
                                      "plane_depths"}

@@ -5,7 +5,7 @@ import subprocess
 import numpy as np
 import pytest
 
-from helpers import geometries, gpkg_columns, gpkg_rows, layer, ogr_dest, run
+from qgishelpers import geometries, gpkg_columns, gpkg_rows, layer, ogr_dest, run
 
 
 def cli_run(cli, *args):

@@ -4,8 +4,8 @@ import time
 
 import pytest
 
-import synthdata
-from helpers import gpkg_rows, layer, layer_rows, ogr_dest, run
+import qgissynth as synthdata
+from qgishelpers import gpkg_rows, layer, layer_rows, ogr_dest, run
 
 
 @pytest.fixture

@@ -4,7 +4,7 @@ import configparser
 
 import pytest
 
-from conftest import PLUGIN_DIR, PLUGIN_ID
+from qgishelpers import PLUGIN_DIR, PLUGIN_ID
 
 ALGS = ("traceplanes", "pointplanes", "structurecontours", "outcroptraces", "planedepths")
 CAUTION = ("Results are interpretations for screening. They must be checked by a qualified professional "

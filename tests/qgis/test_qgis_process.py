@@ -8,10 +8,8 @@ import sys
 import zipfile
 from pathlib import Path
 
-import pytest
-
-from conftest import PLUGIN_DIR, PLUGIN_ID, PROVIDER_ID, qgis_process_env, run_qgis_process
-from helpers import gpkg_rows, gpkg_tables
+from qgishelpers import PLUGIN_DIR, PLUGIN_ID, PROVIDER_ID, qgis_process_env, run_qgis_process
+from qgishelpers import gpkg_rows, gpkg_tables
 
 ALGORITHMS = ("traceplanes", "pointplanes", "structurecontours", "outcroptraces", "planedepths")
 
@@ -104,8 +102,7 @@ def test_release_zip_installs_into_a_fresh_profile(synth, tmp_path):
     assert [r["plane_id"] for r in gpkg_rows(out, "point_planes")[1]] == ["C10", "C2", "C3"]
 
 
-@pytest.mark.parametrize("bad", ["output_is_input"])
-def test_output_over_input_fails_from_the_command_line(synth, qp_env, tmp_path, bad):
+def test_output_over_input_fails_from_the_command_line(synth, qp_env, tmp_path):
     g = tmp_path / "copy.gpkg"
     shutil.copyfile(synth["gpkg"], g)
     proc = run_qgis_process(["--json", "run", "slipsense:pointplanes", "--",

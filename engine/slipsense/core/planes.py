@@ -182,6 +182,10 @@ class QualityRules:
       ``azimuth_min_dip``) dip-direction interval ≤ ``good_dip_dir_width``.
     * ``fair``: M > 2 and K < 1.6 and intervals ≤ ``fair_*`` (project choice).
     * ``poor``: everything else that is not ill-posed.
+    * A misfit ratio (observed rms / rms the stated errors explain) above ``good_misfit`` caps the
+      word at ``fair``, above ``fair_misfit`` at ``poor`` (project choice): the trace is not a plane
+      within the stated errors (a curved or segmented fault, or larger errors than stated).  The
+      intervals are widened by the ratio in any case.
     """
 
     min_width_factor: float = 3.0
@@ -196,6 +200,8 @@ class QualityRules:
     fair_dip_width: float = 20.0
     fair_dip_dir_width: float = 45.0
     azimuth_min_dip: float = 15.0
+    good_misfit: float = 2.0
+    fair_misfit: float = 5.0
 
 
 def assess_quality(
@@ -208,6 +214,7 @@ def assess_quality(
     dip_width=None,
     dip_dir_width=None,
     rules=QualityRules(),
+    misfit_ratio=None,
 ):
     """Quality word and reason for each fitted plane (the only place the criteria live).
 
@@ -220,6 +227,8 @@ def assess_quality(
         Horizontal and vertical position errors (1 sigma, metres) assumed for the points.
     dip, dip_width, dip_dir_width : (G,) degrees, optional
         Fitted dip and widths of the Monte Carlo 95 % intervals (NaN or None when no draws).
+    misfit_ratio : (G,) optional
+        Observed rms / rms explained by the stated errors (NaN or None when no draws).
 
     Returns
     -------
@@ -261,11 +270,18 @@ def assess_quality(
     steep = dip > r.azimuth_min_dip
     good = (m > r.good_m) & (k < r.good_k) & ~(dw > r.good_dip_width) & ~(steep & (aw > r.good_dip_dir_width))
     fair = (m > r.fair_m) & (k < r.fair_k) & ~(dw > r.fair_dip_width) & ~(steep & (aw > r.fair_dip_dir_width))
+    mis = nanarr if misfit_ratio is None else np.asarray(misfit_ratio, dtype=float)
     rest = reason == ""
     quality[rest & good] = "good"
     quality[rest & ~good & fair] = "fair"
     reason[rest & ~good & fair] = "weaker coplanarity or wider intervals than 'good'"
     reason[rest & ~good & ~fair] = "low coplanarity (M), high collinearity (K) or wide intervals"
+    why = "misfit {:.1f}x what the stated errors explain: curved/segmented fault or larger errors; intervals widened"
+    for word, limit, allowed in (("fair", r.good_misfit, ("good",)), ("poor", r.fair_misfit, ("good", "fair"))):
+        cap = rest & (mis > limit) & np.isin(quality, allowed)
+        for i in np.flatnonzero(cap):
+            quality[i] = word
+            reason[i] = why.format(mis[i])
     m = np.where(few, np.nan, m)
     k = np.where(few, np.nan, k)
     return quality.astype(str), reason.astype(str), m, k
@@ -273,7 +289,7 @@ def assess_quality(
 
 _RESULT_FIELDS = (
     "dip_dir", "dip", "strike", "dip_lo95", "dip_hi95", "dip_dir_lo95", "dip_dir_hi95",
-    "n_points", "relief_m", "rms_m", "coplanarity", "collinearity", "quality", "reason",
+    "n_points", "relief_m", "rms_m", "misfit_ratio", "coplanarity", "collinearity", "quality", "reason",
     "centroid_x", "centroid_y", "centroid_z",
 )
 
@@ -298,6 +314,7 @@ class PlaneResults:
     n_points: np.ndarray
     relief_m: np.ndarray
     rms_m: np.ndarray
+    misfit_ratio: np.ndarray
     coplanarity: np.ndarray
     collinearity: np.ndarray
     quality: np.ndarray
@@ -374,6 +391,7 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
     dip_dir = np.atleast_1d(dip_dir)
     dip = np.atleast_1d(dip)
     g = dip.shape[0]
+    misfit = np.full(g, np.nan)
     lo = np.full(g, np.nan)
     hi = np.full(g, np.nan)
     dlo = np.full(g, np.nan)
@@ -387,15 +405,30 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
                 return pts + r.normal(size=pts.shape) * sig
 
         normals = np.empty((int(draws), g, 3))
+        rms2 = np.empty((int(draws), g))
         for i in range(int(draws)):
-            normals[i] = fit_groups(perturb(rng), offsets).normal
-        with np.errstate(invalid="ignore"), warnings.catch_warnings():
+            drawn = fit_groups(perturb(rng), offsets)
+            normals[i] = drawn.normal
+            rms2[i] = drawn.rms_m ** 2
+        with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns of ill-posed groups
             lo, hi, dlo, dhi = _interval_stats(fit.normal, normals)
+            # Misfit check: a draw's residual variance is about the data's plus the stated errors'
+            # own, so their difference estimates what the stated errors alone explain.
+            noise2 = np.nanmedian(rms2, axis=0) - fit.rms_m ** 2
+            misfit = fit.rms_m / np.sqrt(np.maximum(noise2, 1e-24))
+        # Inflate the intervals by the misfit ratio where the plane fits worse than the stated
+        # errors explain (the usual reduced-chi-square scaling of least squares; common practice).
+        inflate = np.where(misfit > 1.0, misfit, 1.0)
+        lo = dip + inflate * (lo - dip)
+        hi = dip + inflate * (hi - dip)
+        dlo = inflate * dlo
+        dhi = inflate * dhi
     dip_width = hi - lo
     dd_width = dhi - dlo
     quality, reason, m, k = assess_quality(
-        fit.n_points, fit.eigvals, fit.relief_m, sigma_xy_m, sigma_z_m, dip, dip_width, dd_width, rules
+        fit.n_points, fit.eigvals, fit.relief_m, sigma_xy_m, sigma_z_m, dip, dip_width, dd_width, rules,
+        misfit_ratio=misfit,
     )
     ill = quality == "ill-posed"
     nan = np.nan
@@ -412,6 +445,7 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
         n_points=fit.n_points,
         relief_m=fit.relief_m,
         rms_m=fit.rms_m,
+        misfit_ratio=misfit,
         coplanarity=m,
         collinearity=k,
         quality=quality,

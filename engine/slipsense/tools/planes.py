@@ -5,9 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import steps
-from ..core.raster import Grid
 from ..errors import DataError
-from ..io.crs import as_crs
 from ..io.dem import open_dem
 from ..io.vector import check_output, lines_to_traces, points_xy, read_layer
 from .common import provenance, write_result
@@ -193,8 +191,13 @@ def plane_depth_file(collars, planes, out, *, layer=None, planes_layer="trace_pl
         zc = np.asarray(f[z_field], float)
     pair = f[plane_field].astype(str).tolist() if plane_field else None
     _check_angles(lyr.name, lyr.feature_ids, trend, plunge, trend_field, plunge_field)
+    pf = plyr.frame
+    have = all(c in pf.columns for c in ("dip_lo95", "dip_hi95", "dip_dir_lo95", "dip_dir_hi95"))
+    col = lambda c: np.asarray(pf[c].astype(float), float)  # noqa: E731
     step = steps.plane_depths(cids, xy, grid, trend, plunge, pids, dd, dp, cen, collar_z=zc,
-                              pair_plane=pair)
+                              pair_plane=pair,
+                              dip_interval=(col("dip_lo95"), col("dip_hi95")) if have else None,
+                              dip_dir_interval=(col("dip_dir_lo95"), col("dip_dir_hi95")) if have else None)
     step.warnings = lyr.skipped + step.warnings
     params = {"collars": collars, "layer": layer, "planes": planes, "planes_layer": planes_layer,
               "id_field": id_field, "trend_field": trend_field, "plunge_field": plunge_field,
@@ -216,4 +219,3 @@ def _check_angles(name, fids, trend, plunge, trend_field, plunge_field):
 
 
 __all__ += ["group_points"]
-_ = Grid, as_crs

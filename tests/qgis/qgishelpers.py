@@ -1,8 +1,65 @@
 """Small helpers shared by the QGIS tests."""
 import math
+import os
 import sqlite3
+import subprocess
+from pathlib import Path
 
 import numpy as np
+import pytest
+
+REPO = Path(__file__).resolve().parents[2]  # paths relative to the repository, never absolute
+PLUGIN_DIR = REPO / "qgis_plugin"
+ENGINE_DIR = REPO / "engine"
+PLUGIN_ID = "slipsense_qgis"
+PROVIDER_ID = "slipsense"
+QGIS_PROCESS = "/usr/bin/qgis_process.bin"
+DEMO_DIR = REPO / "demo_gpkg"
+IN_CI = os.environ.get("CI", "").lower() in ("1", "true", "yes")
+
+
+def base_env(root):
+    """Variables every QGIS process of the tests runs with (recipe section 0)."""
+    root = Path(root)
+    for sub in ("home", "profile", "runtime"):
+        (root / sub).mkdir(parents=True, exist_ok=True)
+    os.chmod(root / "runtime", 0o700)
+    return {
+        "QT_QPA_PLATFORM": "offscreen",
+        "HOME": str(root / "home"),
+        "QGIS_CUSTOM_CONFIG_PATH": str(root / "profile"),
+        "XDG_RUNTIME_DIR": str(root / "runtime"),
+        "PYTHONWARNINGS": "ignore::DeprecationWarning",
+        "LC_ALL": "C.UTF-8",
+    }
+
+
+def qgis_process_env(root, plugin_path=True, engine_path=True, enable=True):
+    """Environment for a qgis_process.bin child with its own throwaway profile under ``root``."""
+    env = {k: v for k, v in os.environ.items()
+           if k not in ("QGIS_PLUGINPATH", "PYTHONPATH", "PYTHONHOME", "QGIS_PREFIX_PATH")}
+    env.update(base_env(root))
+    env["PATH"] = "/usr/bin:" + env.get("PATH", "")
+    if plugin_path:
+        env["QGIS_PLUGINPATH"] = str(PLUGIN_DIR)
+    if engine_path:
+        env["PYTHONPATH"] = str(ENGINE_DIR)
+    if enable:
+        ini = Path(root) / "profile" / "profiles" / "default" / "QGIS" / "QGIS3.ini"
+        ini.parent.mkdir(parents=True, exist_ok=True)
+        ini.write_text(f"[PythonPlugins]\n{PLUGIN_ID}=true\n")
+    return env
+
+
+def run_qgis_process(args, env, timeout=120):
+    if not Path(QGIS_PROCESS).exists():
+        if IN_CI:
+            pytest.fail(f"{QGIS_PROCESS} is missing")
+        pytest.skip(f"{QGIS_PROCESS} is missing")
+    return subprocess.run([QGIS_PROCESS, *args], env=env, capture_output=True, text=True,
+                          timeout=timeout, stdin=subprocess.DEVNULL)
+
+
 
 
 def run(alg_id, params, feedback=None, context=None):
