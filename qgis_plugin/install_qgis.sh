@@ -1,10 +1,15 @@
 #!/usr/bin/env bash
-# Install Debian's QGIS 3.22 (PyQGIS + qgis_process) and pytest for Debian's Python, if missing.
+# Install Debian's QGIS 3.22 (PyQGIS + qgis_process), numpy, GDAL bindings and pytest for Debian's
+# Python, if missing.
 set -euo pipefail
 need=()
 [ -x /usr/bin/qgis_process.bin ] || need+=(qgis qgis-providers python3-qgis)
 /usr/bin/python3 -c "import qgis.core" 2>/dev/null || need+=(python3-qgis)
 /usr/bin/python3 -c "import pytest" 2>/dev/null || need+=(python3-pytest)
+# numpy for the engine inside QGIS; GDAL's Python bindings for the plugin's rotated-DEM check and
+# for the QGIS tests' own readers (neither is a hard dependency of python3-qgis).
+/usr/bin/python3 -c "import numpy" 2>/dev/null || need+=(python3-numpy)
+/usr/bin/python3 -c "from osgeo import gdal" 2>/dev/null || need+=(python3-gdal)
 if [ ${#need[@]} -eq 0 ]; then exit 0; fi
 SUDO=""
 if [ "$(id -u)" != "0" ]; then SUDO="sudo"; fi

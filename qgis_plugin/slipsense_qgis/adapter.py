@@ -10,7 +10,6 @@ import re
 
 import numpy as np
 from qgis.core import (
-    QgsCoordinateTransform,
     QgsFeature,
     QgsFeatureRequest,
     QgsFields,
@@ -20,11 +19,9 @@ from qgis.core import (
     QgsMultiLineString,
     QgsMultiPoint,
     QgsPoint,
-    QgsPointXY,
     QgsProcessingException,
     QgsProviderRegistry,
     QgsRectangle,
-    QgsWkbTypes,
 )
 
 from .compat import FAST_INSERT, FIELD_TYPES, RASTER_NUMPY_TYPES, WKB, crs_is_metres
@@ -32,13 +29,16 @@ from .engine import Grid
 
 __all__ = [
     "Canceled",
+    "crs_is_missing",
+    "require_defined_crs",
     "require_crs",
     "read_lines",
     "read_points",
     "read_planes",
-    "raster_crs",
     "raster_window",
+    "raster_cell_size",
     "dem_margin_m",
+    "array_to_geometry",
     "table_fields",
     "write_table",
     "layer_location",
@@ -54,12 +54,26 @@ class Canceled(Exception):
 # CRS
 
 
-def require_crs(crs, what):
-    """Fail unless ``crs`` is valid, projected and in metres (the working CRS of every step)."""
+def crs_is_missing(crs):
+    """True for no CRS, an invalid one, or a GeoPackage's "Undefined geographic/Cartesian SRS"
+    (srs_id 0 / -1, which QGIS shows as a valid CRS without an authority)."""
     if crs is None or not crs.isValid():
+        return True
+    return not crs.authid() and crs.description().lower().startswith("undefined")
+
+
+def require_defined_crs(crs, what):
+    """Fail when ``crs`` is missing (a layer that will be transformed to the working CRS)."""
+    if crs_is_missing(crs):
         raise QgsProcessingException(
             f"{what} has no coordinate reference system (CRS); assign one before running"
         )
+    return crs
+
+
+def require_crs(crs, what):
+    """Fail unless ``crs`` is defined, projected and in metres (the working CRS of every step)."""
+    require_defined_crs(crs, what)
     if crs.isGeographic():
         raise QgsProcessingException(
             f"{what} is in a geographic CRS ({crs.authid() or crs.description()}): lengths and "
@@ -129,18 +143,20 @@ def read_lines(source, crs, context, feedback, id_field=None, span=(0.0, 10.0)):
     """Lines of ``source`` in ``crs``: ids (str) and parts (list of (n, 2) arrays) per feature.
 
     Features with no geometry are skipped (listed in ``skipped``).  Without ``id_field`` the id is
-    the feature id (the ``fid`` of a GeoPackage).
+    the feature id (the ``fid`` of a GeoPackage).  A NULL or repeated id is an error (as on the
+    command line).
     """
     ids, lines, skipped = [], [], []
     total = source.featureCount()
     tick = _ticker(feedback, max(total, 1), *span)
     for i, f in enumerate(source.getFeatures(_request(crs, context))):
         tick(i)
-        fid = _text(f.id())
-        name = fid
+        name = _text(f.id())
         if id_field:
             v = _value(f, id_field)
-            name = fid if v is None else _text(v)
+            if v is None:
+                raise QgsProcessingException(f"feature {f.id()}: the id field {id_field!r} is empty (NULL)")
+            name = _text(v)
         g = f.geometry()
         parts = [] if g is None or g.isNull() or g.isEmpty() else _line_parts(g)
         if not parts:
@@ -148,6 +164,9 @@ def read_lines(source, crs, context, feedback, id_field=None, span=(0.0, 10.0)):
             continue
         ids.append(name)
         lines.append(parts)
+    if len(set(ids)) != len(ids):
+        dup = sorted({i for i in ids if ids.count(i) > 1})
+        raise QgsProcessingException(f"trace ids in {id_field or 'the feature id'} are not unique: {dup[:5]}")
     return ids, lines, skipped
 
 
@@ -182,17 +201,17 @@ def read_points(source, crs, context, feedback, fields=(), span=(0.0, 10.0)):
     return fids, np.array(xy, dtype=float).reshape(-1, 2), values, skipped
 
 
-PLANE_ID_FIELDS = ("plane_id", "trace_id")
+PLANE_ID_FIELDS = ("trace_id", "plane_id")  # the order the command line looks for them
 PLANE_NUMBER_FIELDS = ("dip_dir", "dip", "centroid_x", "centroid_y", "centroid_z")
 
 
 def plane_id_field(source):
-    """The id field of a plane layer (``plane_id`` or ``trace_id``), or None."""
+    """The id field of a plane layer (``trace_id`` or ``plane_id``), or None (then: feature ids)."""
     names = source.fields().names()
     return next((n for n in PLANE_ID_FIELDS if n in names), None)
 
 
-def read_planes(source, crs, context, feedback, span=(0.0, 10.0)):
+def read_planes(source, crs, context, feedback, span=(0.0, 10.0), optional=()):
     """Planes from a layer written by *trace planes* or *planes from points*.
 
     Centroid coordinates are read as they are: the layer must already be in ``crs`` (the caller
@@ -204,8 +223,12 @@ def read_planes(source, crs, context, feedback, span=(0.0, 10.0)):
     dip_dir, dip : (G,) float, NaN for NULL
     centroids : (G, 3) float
     vertices : list of (n, 2) arrays, all vertices of each feature's geometry (its trace or points)
+    columns : dict name -> (G,) float, only with ``optional``: those of the numeric fields named
+        there that the layer has (NaN for NULL)
     """
     id_name = plane_id_field(source)
+    have = [n for n in optional if n in source.fields().names()]
+    extra = {n: [] for n in have}
     ids, dd, dp, cen, verts = [], [], [], [], []
     total = source.featureCount()
     tick = _ticker(feedback, max(total, 1), *span)
@@ -216,24 +239,26 @@ def read_planes(source, crs, context, feedback, span=(0.0, 10.0)):
 
     for i, f in enumerate(source.getFeatures(_request(crs, context))):
         tick(i)
-        ids.append(_text(_value(f, id_name)) if _value(f, id_name) is not None else _text(f.id()))
+        v = _value(f, id_name) if id_name else None
+        ids.append(_text(f.id()) if v is None else _text(v))
         dd.append(num(f, "dip_dir"))
         dp.append(num(f, "dip"))
         cen.append((num(f, "centroid_x"), num(f, "centroid_y"), num(f, "centroid_z")))
+        for n in have:
+            extra[n].append(num(f, n))
         g = f.geometry()
         if g is None or g.isNull() or g.isEmpty():
             verts.append(np.array([[cen[-1][0], cen[-1][1]]]))
         else:
             verts.append(np.array([[v.x(), v.y()] for v in g.vertices()], dtype=float).reshape(-1, 2))
-    return ids, np.array(dd, float), np.array(dp, float), np.array(cen, float).reshape(-1, 3), verts
+    out = (ids, np.array(dd, float), np.array(dp, float), np.array(cen, float).reshape(-1, 3), verts)
+    if optional:
+        out += ({n: np.array(v, float) for n, v in extra.items()},)
+    return out
 
 
 # --------------------------------------------------------------------------------------------
 # Raster -> Grid
-
-
-def raster_crs(layer):
-    return layer.crs()
 
 
 def _is_rotated(layer):
@@ -256,12 +281,15 @@ def _is_rotated(layer):
     return bool(gt) and (gt[2] != 0.0 or gt[4] != 0.0)
 
 
-def dem_margin_m(grid_cell_m, sigma_xy_m=0.0):
-    """Margin (m) read around the features: as the command line reads it (see the engine's tools).
+def dem_margin_m(cell_m, sigma_xy_m=0.0, cells=3.0, sigmas=4.0):
+    """Margin (m) of DEM read around the features, the same as the command line's.
 
-    Two cells, plus eight sigma-xy so Monte Carlo draws of the vertices stay inside the window.
+    ``cells`` DEM cells plus ``sigmas`` × sigma-xy (room for the Monte Carlo moves of the
+    vertices).  The plugin and the command line must read the same cells to give the same
+    results, so these numbers follow the engine's ``tools`` (trace planes: 3 cells + 4 sigma;
+    points and collars: 3 cells; outcrop traces: the distance + 2 cells).
     """
-    return 2.0 * grid_cell_m + 8.0 * float(sigma_xy_m)
+    return float(cells) * cell_m + float(sigmas) * float(sigma_xy_m)
 
 
 def raster_cell_size(layer):
@@ -356,16 +384,20 @@ def _line(arr):
 def _multiline(parts):
     m = QgsMultiLineString()
     for p in parts:
-        m.addGeometry(_line(p))
+        if len(p) >= 2:  # a part of one vertex is no line (the command line drops it too)
+            m.addGeometry(_line(p))
     return m
 
 
 def array_to_geometry(kind, item):
-    """A QgsGeometry of engine geometry type ``kind`` from its coordinate array(s)."""
+    """A QgsGeometry of engine geometry type ``kind`` from its coordinate array(s).
+
+    Lines of fewer than two vertices give a null geometry, as on the command line.
+    """
     if kind == "MultiLineString":
         return QgsGeometry(_multiline(item if isinstance(item, (list, tuple)) or np.ndim(item) == 3 else [item]))
     if kind in ("LineString", "LineStringZ"):
-        return QgsGeometry(_line(item))
+        return QgsGeometry(_line(item)) if len(item) >= 2 else QgsGeometry()
     if kind == "MultiPoint":
         m = QgsMultiPoint()
         for p in np.asarray(item, dtype=float).reshape(-1, np.shape(item)[-1]):
@@ -452,14 +484,3 @@ def output_location(destination):
         return None
     path = destination.split("|")[0]
     return _norm(path), os.path.splitext(os.path.basename(path))[0], True
-
-
-def geometry_type_name(source):
-    return QgsWkbTypes.displayString(source.wkbType())
-
-
-def transform_point(x, y, src_crs, dst_crs, context):
-    """(x, y) from ``src_crs`` to ``dst_crs`` by QGIS (used for nothing but CRS changes)."""
-    t = QgsCoordinateTransform(src_crs, dst_crs, context.transformContext())
-    p = t.transform(QgsPointXY(x, y))
-    return p.x(), p.y()

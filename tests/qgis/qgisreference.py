@@ -73,3 +73,8 @@ def read_planes(gpkg, layer):
     cen = np.array([[num(a["centroid_x"]), num(a["centroid_y"]), num(a["centroid_z"])] for _, a, _ in feats])
     ext = [np.concatenate(p) for _, _, p in feats]
     return ids, dd, dp, cen, ext
+
+
+def plane_column(gpkg, layer, name):
+    """One numeric column of a plane layer (NaN for NULL), in fid order."""
+    return np.array([np.nan if a[name] is None else float(a[name]) for _, a, _ in read_features(gpkg, layer)])

@@ -179,12 +179,18 @@ def test_planedepths_equals_engine(synth, planes_gpkg, tmp_path):
     expect = ref.steps.plane_depths(
         [a["collar_id"] for _, a, _ in feats], xy, ref.full_grid(synth["dem"]),
         np.array([a["trend"] for _, a, _ in feats]), np.array([a["plunge"] for _, a, _ in feats]),
-        ids, dd, dp, cen, pair_plane=[a["fault_id"] for _, a, _ in feats])
+        ids, dd, dp, cen, pair_plane=[a["fault_id"] for _, a, _ in feats],
+        dip_interval=(ref.plane_column(planes_gpkg, "trace_planes", "dip_lo95"),
+                      ref.plane_column(planes_gpkg, "trace_planes", "dip_hi95")),
+        dip_dir_interval=(ref.plane_column(planes_gpkg, "trace_planes", "dip_dir_lo95"),
+                          ref.plane_column(planes_gpkg, "trace_planes", "dip_dir_hi95")))
     lyr = layer(out, "plane_depths")
     assert_rows_equal(layer_rows(lyr), table_rows(expect.tables["plane_depths"]))
     for g, e in zip(geometries(lyr), expect.tables["plane_depths"].geometries):
         np.testing.assert_allclose(g[0], e, rtol=0, atol=1e-6)
     assert res["N_PAIRS"] == 3 and res["N_HITS"] == 3
+    rows = layer_rows(lyr)
+    assert all(r["depth_lo95"] <= r["depth_m"] <= r["depth_hi95"] for r in rows)
 
 
 def test_planedepths_all_pairs_vertical_with_z_field(synth, planes_gpkg, tmp_path):

@@ -13,7 +13,8 @@ from qgis.PyQt.QtCore import QCoreApplication
 from .. import adapter
 from ..adapter import Canceled
 from ..compat import FLAG_ADVANCED, FLAG_OPTIONAL, NUMBER_DOUBLE, NUMBER_INTEGER, add_flags
-from ..engine import SlipsenseError
+from ..engine import ORIGIN, SlipsenseError
+from ..engine import __version__ as ENGINE_VERSION
 
 CONVENTIONS = (
     "<p><b>Conventions.</b> Planes are given as dip direction / dip in degrees (dip direction "
@@ -186,6 +187,7 @@ class SlipsenseAlgorithm(QgsProcessingAlgorithm):
             feedback.pushWarning(f"... and {len(warnings) - limit} more warnings")
 
     def processAlgorithm(self, parameters, context, feedback):
+        feedback.pushInfo(f"slipsense engine {ENGINE_VERSION} ({ORIGIN})")
         try:
             result = self.compute(parameters, context, feedback)
         except Canceled:

@@ -64,7 +64,7 @@ class OutcropTracesAlgorithm(SlipsenseAlgorithm):
         if allv.shape[0] == 0:
             raise QgsProcessingException("the plane layer has no usable geometries or centroids")
         lo, hi = allv.min(axis=0), allv.max(axis=0)
-        margin = distance + adapter.dem_margin_m(adapter.raster_cell_size(dem))
+        margin = distance + adapter.dem_margin_m(adapter.raster_cell_size(dem), cells=2.0)
         grid = adapter.raster_window(dem, self.band(parameters, self.BAND, context), (*lo, *hi), margin,
                                      "the planes", feedback)
         self.check_canceled(feedback)

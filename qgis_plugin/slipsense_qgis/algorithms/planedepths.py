@@ -22,6 +22,7 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
     PLUNGE_FIELD = "PLUNGE_FIELD"
     PLANE_FIELD = "PLANE_FIELD"
     PLANES = "PLANES"
+    Z_FIELD = "Z_FIELD"
     DEM = "DEM"
     BAND = "BAND"
     OUTPUT = "OUTPUT"
@@ -29,7 +30,8 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
     SHOW_QUALITY = False
     HELP = (
         "<p>Intersects lines from points (e.g. planned borehole collars) with fitted planes: the "
-        "collar elevation is sampled bilinearly from the DEM, the hole runs from the collar in its "
+        "collar elevation is sampled bilinearly from the DEM (or read from an elevation field, "
+        "metres), the hole runs from the collar in its "
         "trend/plunge (degrees; trend from grid north, plunge positive down, 90 = vertical; "
         "default a vertical hole) and the along-hole distance, the vertical depth and the 3-D point "
         "where it meets each plane are reported. A <i>plane field</i> pairs each collar with one "
@@ -42,7 +44,10 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
         "<p><b>Output</b> <tt>plane_depths</tt>: 3-D points (the intersection, or the collar where "
         "there is none) with <tt>collar_id</tt>, <tt>plane_id</tt>, <tt>collar_z</tt>, "
         "<tt>trend</tt>, <tt>plunge</tt>, <tt>along_hole_m</tt>, <tt>depth_m</tt>, "
-        "<tt>hit_x</tt>/<tt>hit_y</tt>/<tt>hit_z</tt> and <tt>status</tt>, in the DEM's CRS.</p>"
+        "<tt>depth_lo95</tt>/<tt>depth_hi95</tt> (the depth range over the planes at the corners "
+        "of their 95 % dip and dip-direction intervals, when the plane layer has them), "
+        "<tt>hit_x</tt>/<tt>hit_y</tt>/<tt>hit_z</tt> and <tt>status</tt>, in the working CRS (the "
+        "DEM's, or the plane layer's with an elevation field). NULL trends or plunges are errors.</p>"
     )
 
     def name(self):
@@ -67,7 +72,11 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
             self.PLANE_FIELD, self.tr("Plane id field pairing each collar with a plane (default: all planes)"),
             None, self.COLLARS, FIELD_ANY, optional=True))
         add_planes_parameter(self, self.PLANES)
-        self.addParameter(QgsProcessingParameterRasterLayer(self.DEM, self.tr("DEM for collar elevations (m)")))
+        self.addParameter(QgsProcessingParameterRasterLayer(
+            self.DEM, self.tr("DEM for collar elevations (m; or give an elevation field)"), optional=True))
+        self.addParameter(QgsProcessingParameterField(
+            self.Z_FIELD, self.tr("Collar elevation field (m; instead of the DEM)"), None, self.COLLARS,
+            FIELD_NUMERIC, optional=True))
         self.add_band(self.BAND, self.DEM)
         self.addParameter(QgsProcessingParameterFeatureSink(
             self.OUTPUT, self.tr("Plane depths"), SOURCE_POINT))
@@ -78,24 +87,26 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
     def compute(self, parameters, context, feedback):
         self.refuse_overwrite(parameters, context, (self.OUTPUT,),
                               vector_inputs=(self.COLLARS, self.PLANES), raster_inputs=(self.DEM,))
-        dem = self.parameterAsRasterLayer(parameters, self.DEM, context)
-        if dem is None:
-            raise QgsProcessingException(self.invalidRasterError(parameters, self.DEM))
-        crs = adapter.require_crs(dem.crs(), "the DEM")
         collars = self.source(parameters, self.COLLARS, context, "the collar layer")
-        if not collars.sourceCrs().isValid():
-            raise QgsProcessingException(
-                "the collar layer has no coordinate reference system (CRS); assign one before running")
+        adapter.require_defined_crs(collars.sourceCrs(), "the collar layer")
         names = {}
-        for key in (self.ID_FIELD, self.TREND_FIELD, self.PLUNGE_FIELD, self.PLANE_FIELD):
+        for key in (self.ID_FIELD, self.TREND_FIELD, self.PLUNGE_FIELD, self.PLANE_FIELD, self.Z_FIELD):
             names[key] = self.parameterAsString(parameters, key, context) or None
             self.require_field(collars, names[key], "the collar layer", key)
+        dem = self.parameterAsRasterLayer(parameters, self.DEM, context) if parameters.get(self.DEM) else None
+        if (dem is None) == (names[self.Z_FIELD] is None):
+            raise QgsProcessingException(
+                "give exactly one source of collar elevations: a DEM or an elevation field (Z_FIELD)")
+        planes = planes_source(self, parameters, self.PLANES, context)
+        if dem is not None:
+            crs = adapter.require_crs(dem.crs(), "the DEM")
+            require_same_crs(planes, crs, "the DEM")
+        else:
+            crs = adapter.require_crs(planes.sourceCrs(), "the plane layer")
         if names[self.TREND_FIELD] and collars.sourceCrs() != crs:
             raise QgsProcessingException(
                 "hole trends are azimuths from grid north of the collar layer's CRS, which differs from "
-                "the DEM's; reproject the collars to the DEM's CRS (and give trends in it) first")
-        planes = planes_source(self, parameters, self.PLANES, context)
-        require_same_crs(planes, crs, "the DEM")
+                f"the working CRS ({crs.authid()}); reproject the collars (and their trends) to it first")
 
         fields = [n for n in names.values() if n]
         fids, xy, values, skipped = adapter.read_points(collars, crs, context, feedback, fields, (0.0, 30.0))
@@ -114,8 +125,8 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
             vals = values[name]
             for cid, v in zip(ids, vals):
                 if v is None:
-                    feedback.pushWarning(f"collar {cid}: NULL {name}; using {default:g}")
-            return np.array([default if v is None else float(v) for v in vals], dtype=float)
+                    raise QgsProcessingException(f"collar {cid}: the field {name!r} is empty (NULL)")
+            return np.array([float(v) for v in vals], dtype=float)
 
         trend = numbers(self.TREND_FIELD, 0.0)
         plunge = numbers(self.PLUNGE_FIELD, 90.0)
@@ -131,14 +142,26 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
         if keep.size == 0:
             raise QgsProcessingException("no collar has a plane id to pair with")
 
-        pids, dip_dir, dip, centroids, _ = adapter.read_planes(planes, crs, context, feedback, (30.0, 50.0))
-        margin = adapter.dem_margin_m(adapter.raster_cell_size(dem))
-        bounds = (*xy[keep].min(axis=0), *xy[keep].max(axis=0))
-        grid = adapter.raster_window(dem, self.band(parameters, self.BAND, context), bounds, margin,
-                                     "the collars", feedback)
+        interval_fields = ("dip_lo95", "dip_hi95", "dip_dir_lo95", "dip_dir_hi95")
+        pids, dip_dir, dip, centroids, _, cols = adapter.read_planes(planes, crs, context, feedback, (30.0, 50.0),
+                                                                     optional=interval_fields)
+        intervals = {}
+        if all(n in cols for n in interval_fields):  # a depth range from the planes' 95 % intervals
+            intervals = dict(dip_interval=(cols["dip_lo95"], cols["dip_hi95"]),
+                             dip_dir_interval=(cols["dip_dir_lo95"], cols["dip_dir_hi95"]))
+        grid, collar_z = None, None
+        if dem is not None:
+            margin = adapter.dem_margin_m(adapter.raster_cell_size(dem))
+            bounds = (*xy[keep].min(axis=0), *xy[keep].max(axis=0))
+            grid = adapter.raster_window(dem, self.band(parameters, self.BAND, context), bounds, margin,
+                                         "the collars", feedback)
+        else:
+            zf = names[self.Z_FIELD]
+            collar_z = np.array([np.nan if values[zf][i] is None else float(values[zf][i]) for i in keep])
         self.check_canceled(feedback)
         result = steps.plane_depths([ids[i] for i in keep], xy[keep], grid, trend[keep], plunge[keep],
-                                    pids, dip_dir, dip, centroids, pair_plane=pair)
+                                    pids, dip_dir, dip, centroids, collar_z=collar_z, pair_plane=pair,
+                                    **intervals)
         self.check_canceled(feedback)
         feedback.setProgress(80)
         self.push_warnings(feedback, result.warnings)

@@ -7,7 +7,8 @@ from ..compat import SOURCE_ANY_GEOMETRY
 PLANES_HELP = (
     "<p><b>Planes</b>: a layer written by <i>Fault planes from traces over a DEM</i> or <i>Planes "
     "from groups of points</i> (fields <tt>dip_dir</tt>, <tt>dip</tt>, <tt>centroid_x</tt>, "
-    "<tt>centroid_y</tt>, <tt>centroid_z</tt> and <tt>trace_id</tt> or <tt>plane_id</tt>). Its "
+    "<tt>centroid_y</tt>, <tt>centroid_z</tt>; ids from <tt>trace_id</tt> or <tt>plane_id</tt>, else "
+    "the feature id). Its "
     "dip directions are azimuths from grid north of its own CRS, so it must be in the working CRS. "
     "Planes without an orientation (ill-posed) are reported and skipped.</p>"
 )
@@ -23,15 +24,11 @@ def planes_source(alg, parameters, key, context):
     src = alg.source(parameters, key, context, "the plane layer")
     names = src.fields().names()
     missing = [n for n in adapter.PLANE_NUMBER_FIELDS if n not in names]
-    if adapter.plane_id_field(src) is None:
-        missing.append("plane_id or trace_id")
     if missing:
         raise QgsProcessingException(
             f"the plane layer lacks the field(s) {', '.join(missing)} ({key}); use the output of "
             "'Fault planes from traces over a DEM' or 'Planes from groups of points'")
-    if not src.sourceCrs().isValid():
-        raise QgsProcessingException(
-            "the plane layer has no coordinate reference system (CRS); assign one before running")
+    adapter.require_defined_crs(src.sourceCrs(), "the plane layer")
     return src
 
 

@@ -40,7 +40,7 @@ class PointPlanesAlgorithm(SlipsenseAlgorithm):
         "errors (sigma xy, sigma z, metres) Monte Carlo draws give 95 % intervals, reproducible for "
         "a seed.</p>"
         "<p>Groups are the distinct values of the group field (as text, in sorted order); points "
-        "with a NULL group are skipped. The working CRS is the DEM's when the DEM gives the "
+        "with a NULL group or no elevation are dropped and reported. The working CRS is the DEM's when the DEM gives the "
         "elevations, else the point layer's; it must be projected with metre units.</p>"
         "<p><b>Output</b> <tt>point_planes</tt>: one row per group (geometry: its points) with "
         "<tt>plane_id</tt>, <tt>dip_dir</tt>, <tt>dip</tt>, <tt>strike</tt>, intervals, "
@@ -67,7 +67,7 @@ class PointPlanesAlgorithm(SlipsenseAlgorithm):
         self.add_band(self.BAND, self.DEM)
         self.add_number(self.SIGMA_XY, "Horizontal position error, 1 sigma (m)", 0.0, minimum=0.0)
         self.add_number(self.SIGMA_Z, "Elevation error, 1 sigma (m)", 0.0, minimum=0.0)
-        self.add_number(self.DRAWS, "Monte Carlo draws (used when an error is > 0)", 200, minimum=0,
+        self.add_number(self.DRAWS, "Monte Carlo draws (0 = no intervals; used when an error is > 0)", 0, minimum=0,
                         maximum=100000, integer=True, advanced=True)
         self.add_number(self.SEED, "Random seed", 0, minimum=0, integer=True, advanced=True)
         self.addParameter(QgsProcessingParameterFeatureSink(self.OUTPUT, self.tr("Point planes"), SOURCE_POINT))
@@ -87,11 +87,9 @@ class PointPlanesAlgorithm(SlipsenseAlgorithm):
         if z_field is None and dem is None:
             raise QgsProcessingException("give an elevation field (Z_FIELD) or a DEM: the points need elevations")
         if z_field and dem is not None:
-            feedback.pushInfo("elevations come from the elevation field; the DEM is not used")
-            dem = None
-        if not source.sourceCrs().isValid():
             raise QgsProcessingException(
-                "the point layer has no coordinate reference system (CRS); assign one before running")
+                "give either an elevation field (Z_FIELD) or a DEM, not both: one source of elevations")
+        adapter.require_defined_crs(source.sourceCrs(), "the point layer")
         if dem is not None:
             crs = adapter.require_crs(dem.crs(), "the DEM")
         else:
@@ -104,33 +102,38 @@ class PointPlanesAlgorithm(SlipsenseAlgorithm):
             feedback.pushWarning(f"point {s}: no single point geometry; skipped")
         if xy.shape[0] == 0:
             raise QgsProcessingException("the point layer has no point geometries")
+        sigma_xy = self.parameterAsDouble(parameters, self.SIGMA_XY, context)
+        sigma_z = self.parameterAsDouble(parameters, self.SIGMA_Z, context)
         if z_field:
             z = np.array([np.nan if v is None else float(v) for v in values[z_field]], dtype=float)
         else:
-            margin = adapter.dem_margin_m(adapter.raster_cell_size(dem))
+            margin = adapter.dem_margin_m(adapter.raster_cell_size(dem), sigma_xy)
             bounds = (*xy.min(axis=0), *xy.max(axis=0))
             grid = adapter.raster_window(dem, self.band(parameters, self.BAND, context), bounds, margin,
                                          "the points", feedback)
             z = sample_bilinear(grid, xy[:, 0], xy[:, 1])
-        for fid, zz in zip(fids, z):
-            if not np.isfinite(zz):
-                feedback.pushWarning(f"point {fid}: no elevation (NULL, or off the DEM / nodata); not used")
         gvals = values[group_field]
-        keep = [i for i, g in enumerate(gvals) if g is not None]
-        if len(keep) < len(gvals):
-            feedback.pushWarning(f"{len(gvals) - len(keep)} point(s) with a NULL group were skipped")
-        labels = [str(gvals[i]) for i in keep]
+        use = []
+        for i, (fid, zz, g) in enumerate(zip(fids, z, gvals)):
+            if g is None:
+                feedback.pushWarning(f"point {fid}: the group field is NULL; point dropped")
+            elif not np.isfinite(zz):
+                what = f"field {z_field!r} is NULL" if z_field else "no DEM value under it"
+                feedback.pushWarning(f"point {fid}: {what}; point dropped")
+            else:
+                use.append(i)
+        if not use:
+            raise QgsProcessingException("no point has both a group and an elevation")
+        labels = [str(gvals[i]) for i in use]
         order = group_order(labels)
         members = {g: [] for g in order}
-        for i, g in zip(keep, labels):
+        for i, g in zip(use, labels):
             members[g].append(i)
         pts = np.column_stack([xy, z])
         groups = [pts[members[g]] for g in order]
         self.check_canceled(feedback)
         feedback.setProgress(50)
 
-        sigma_xy = self.parameterAsDouble(parameters, self.SIGMA_XY, context)
-        sigma_z = self.parameterAsDouble(parameters, self.SIGMA_Z, context)
         result = steps.point_planes(
             order, groups, sigma_xy_m=sigma_xy, sigma_z_m=sigma_z,
             draws=self.parameterAsInt(parameters, self.DRAWS, context),

@@ -88,9 +88,7 @@ class TracePlanesAlgorithm(SlipsenseAlgorithm):
         crs = adapter.require_crs(dem.crs(), "the DEM")
         band = self.band(parameters, self.BAND, context)
         source = self.source(parameters, self.INPUT, context, "the trace layer")
-        if not source.sourceCrs().isValid():
-            raise QgsProcessingException(
-                "the trace layer has no coordinate reference system (CRS); assign one before running")
+        adapter.require_defined_crs(source.sourceCrs(), "the trace layer")
         id_field = self.parameterAsString(parameters, self.ID_FIELD, context) or None
         self.require_field(source, id_field, "the trace layer", self.ID_FIELD)
         spacing = self.parameterAsDouble(parameters, self.SPACING, context)
