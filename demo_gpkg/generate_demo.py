@@ -1227,8 +1227,11 @@ def write_gpkg(path: Path, layers: dict) -> None:
     for name, (rows, fields) in layers.items():
         gdf = gpd.GeoDataFrame([{k: r[k] for k in fields} for r in rows],
                                geometry=[r["geometry"] for r in rows], crs=CRS)
+        first = not path.exists()
         pyogrio.write_dataframe(
-            gdf, path, layer=name, driver="GPKG", append=path.exists(),
+            gdf, path, layer=name, driver="GPKG", append=not first,
+            # GeoPackage 1.2: read without warnings by the GDAL of QGIS 3.22 LTR
+            dataset_options={"VERSION": "1.2"} if first else None,
             layer_metadata={"north_reference": "grid", "crs": CRS,
                             "source": f"slipsense demo generator {GENERATOR_VERSION}, "
                                       f"seed {SEED}",

@@ -324,3 +324,15 @@ def test_sqlite_view_of_output(cli, world, tmp_path):
     rows = con.execute("select trace_id, dip from trace_planes order by trace_id").fetchall()
     con.close()
     assert dict(rows)["S"] is None and dict(rows)["A"] == pytest.approx(60.0, abs=0.2)
+
+
+def test_layer_metadata_records_north_reference(cli, world, tmp_path):
+    import pyogrio
+
+    out = tmp_path / "o.gpkg"
+    assert run_planes(cli, world, out)[0] == 0
+    meta = pyogrio.read_info(str(out), layer="trace_planes")["layer_metadata"]
+    assert meta["north_reference"] == "grid" and meta["working_crs"] == "EPSG:32633"
+    con = sqlite3.connect(out)
+    assert con.execute("pragma user_version").fetchone()[0] == 10200  # GeoPackage 1.2
+    con.close()

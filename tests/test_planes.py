@@ -405,3 +405,20 @@ def test_assess_quality_m_k_definitions():
     # Fernández (2005): M = ln(S1/S3), K = ln(S1/S2)/ln(S2/S3).
     np.testing.assert_allclose(m, np.log(ev[:, 0] / ev[:, 2]), rtol=1e-12)
     np.testing.assert_allclose(k, np.log(ev[:, 0] / ev[:, 1]) / np.log(ev[:, 1] / ev[:, 2]), rtol=1e-12)
+
+
+def test_monte_carlo_kernel_agrees_with_fit_groups():
+    """The lean kernel of the draw loop is the same fit as fit_groups (NaN rows included)."""
+    from slipsense.core.planes import _draw_fit, _group_index, fit_groups
+
+    rng = np.random.default_rng(5)
+    pts = rng.normal(scale=[300, 200, 20], size=(90, 3)) + [5e5, 5.1e6, 800]
+    pts[7] = np.nan
+    offsets = np.array([0, 2, 40, 40, 90])
+    ref = fit_groups(pts, offsets)
+    gid, _ = _group_index(offsets, len(pts))
+    normal, var3 = _draw_fit(pts[:, 0], pts[:, 1], pts[:, 2], offsets, gid, np.nan_to_num(ref.centroid))
+    ok = np.isfinite(ref.normal[:, 0])
+    np.testing.assert_allclose(normal[ok] * np.sign(normal[ok, 2:3]), ref.normal[ok], atol=1e-12)
+    np.testing.assert_allclose(var3[ok], ref.eigvals[ok, 2], rtol=1e-9)
+    assert np.isnan(normal[~ok]).all()

@@ -32,6 +32,7 @@ from .tables import (
 
 __all__ = [
     "StepResult",
+    "dem_margin_m",
     "trace_planes",
     "point_planes",
     "structure_contours",
@@ -48,6 +49,16 @@ class StepResult:
     tables: dict
     summary: dict
     warnings: list = field(default_factory=list)
+
+
+def dem_margin_m(cell_m, sigma_xy_m=0.0, cells=3.0, sigmas=6.0):
+    """Margin (m) of DEM to read around the features' bounding box.
+
+    ``cells`` DEM cells plus ``sigmas`` × sigma-xy (room for the Monte Carlo moves of vertices;
+    a move beyond 6 sigma has odds below 1e-8).  The CLI and the QGIS plugin both use this, so they
+    read the same cells and give the same numbers.
+    """
+    return float(cells) * float(cell_m) + float(sigmas) * float(sigma_xy_m)
 
 
 def quality_counts(quality):
@@ -118,7 +129,7 @@ def point_planes(group_ids, groups, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=0, s
     offsets = np.r_[0, np.cumsum([len(g) for g in groups])]
     planes = planes_from_points(pts, offsets, sigma_xy_m=sigma_xy_m, sigma_z_m=sigma_z_m,
                                 draws=draws, seed=seed)
-    table = point_plane_table(group_ids, planes, groups)
+    table = point_plane_table(group_ids, planes, [np.asarray(g, float).reshape(-1, 3)[:, :2] for g in groups])
     return StepResult({"point_planes": table},
                       {"groups": len(groups), "quality": quality_counts(planes.quality)},
                       _plane_warnings("group", group_ids, planes))
@@ -267,6 +278,9 @@ def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir,
         if pair_plane is None:
             targets = range(len(plane_ids))
         else:
+            if pair_plane[k] is None:
+                warnings.append(f"collar {collar_ids[k]}: no plane named in its plane field; skipped")
+                continue
             want = str(pair_plane[k])
             if want not in pidx:
                 warnings.append(f"collar {collar_ids[k]}: plane {want!r} is not in the plane layer")

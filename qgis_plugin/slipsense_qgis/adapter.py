@@ -25,7 +25,7 @@ from qgis.core import (
 )
 
 from .compat import FAST_INSERT, FIELD_TYPES, RASTER_NUMPY_TYPES, WKB, crs_is_metres
-from .engine import Grid
+from .engine import Grid, steps
 
 __all__ = [
     "Canceled",
@@ -281,15 +281,10 @@ def _is_rotated(layer):
     return bool(gt) and (gt[2] != 0.0 or gt[4] != 0.0)
 
 
-def dem_margin_m(cell_m, sigma_xy_m=0.0, cells=3.0, sigmas=4.0):
-    """Margin (m) of DEM read around the features, the same as the command line's.
-
-    ``cells`` DEM cells plus ``sigmas`` × sigma-xy (room for the Monte Carlo moves of the
-    vertices).  The plugin and the command line must read the same cells to give the same
-    results, so these numbers follow the engine's ``tools`` (trace planes: 3 cells + 4 sigma;
-    points and collars: 3 cells; outcrop traces: the distance + 2 cells).
-    """
-    return float(cells) * cell_m + float(sigmas) * float(sigma_xy_m)
+def dem_margin_m(cell_m, sigma_xy_m=0.0, cells=3.0):
+    """Margin (m) of DEM read around the features: the engine's ``steps.dem_margin_m``, which
+    the command line uses too, so both read the same DEM cells."""
+    return steps.dem_margin_m(cell_m, sigma_xy_m, cells=cells)
 
 
 def raster_cell_size(layer):

@@ -72,11 +72,21 @@ def _group_index(offsets, n):
     return np.repeat(np.arange(counts.size), counts), counts
 
 
-def _group_sum(values, gid, n_groups):
-    """Sum rows of ``values`` (N, k) into ``n_groups`` groups; empty groups give 0."""
-    flat = values.reshape(values.shape[0], -1)
-    cols = [np.bincount(gid, weights=flat[:, j], minlength=n_groups) for j in range(flat.shape[1])]
-    return np.stack(cols, axis=-1).reshape((n_groups,) + values.shape[1:])
+def _group_reduce(ufunc, values, offsets, empty):
+    """``ufunc.reduceat`` over contiguous groups of rows; empty groups get ``empty``."""
+    starts = np.asarray(offsets[:-1], dtype=np.intp)
+    counts = np.diff(offsets)
+    n = values.shape[0]
+    if n == 0:
+        return np.full((starts.size,) + values.shape[1:], empty, dtype=float)
+    out = ufunc.reduceat(values, np.minimum(starts, n - 1), axis=0)
+    out[counts == 0] = empty
+    return out
+
+
+def _group_sum(values, offsets):
+    """Sum rows of ``values`` (N, k) over contiguous groups; empty groups give 0."""
+    return _group_reduce(np.add, values, offsets, 0.0)
 
 
 def fit_groups(points, offsets, weights=None):
@@ -99,22 +109,28 @@ def fit_groups(points, offsets, weights=None):
     if p.ndim != 2 or p.shape[1] != 3:
         raise GeometryError(f"points must have shape (N, 3), got {p.shape}")
     gid, counts = _group_index(offsets, p.shape[0])
+    offsets = np.asarray(offsets, dtype=np.intp)
     g = counts.size
-    w = np.all(np.isfinite(p), axis=1).astype(float)
+    valid = np.isfinite(p).all(axis=1)
     if weights is not None:
-        w = w * (np.asarray(weights, dtype=float) > 0)
-    p0 = np.where(w[:, None] > 0, p, 0.0)
-    n = np.bincount(gid, weights=w, minlength=g)
+        valid &= np.asarray(weights, dtype=float) > 0
+    w = valid.astype(float)
+    n = _group_sum(w[:, None], offsets)[:, 0]
     # Subtract a per-group reference point first so sums stay small (UTM coordinates are ~1e6 m).
     ref = np.zeros((g, 3))
     nz = counts > 0
-    ref[nz] = np.nan_to_num(p[np.asarray(offsets)[:-1][nz]])
-    local = (p0 - ref[gid]) * w[:, None]
+    ref[nz] = np.nan_to_num(p[offsets[:-1][nz]])
+    local = np.where(valid[:, None], p - ref[gid], 0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
-        mean = _group_sum(local, gid, g) / n[:, None]
-    centred = (p0 - ref[gid] - np.nan_to_num(mean)[gid]) * w[:, None]
-    outer = centred[:, :, None] * centred[:, None, :]
-    scatter = _group_sum(outer.reshape(-1, 9), gid, g).reshape(g, 3, 3)
+        mean = _group_sum(local, offsets) / n[:, None]
+    mean = np.nan_to_num(mean)
+    c = np.where(valid[:, None], local - mean[gid], 0.0)
+    # The six distinct products of the symmetric scatter matrix, summed per group in one pass.
+    prods = np.column_stack([c[:, 0] * c[:, 0], c[:, 0] * c[:, 1], c[:, 0] * c[:, 2],
+                             c[:, 1] * c[:, 1], c[:, 1] * c[:, 2], c[:, 2] * c[:, 2]])
+    sxx, sxy, sxz, syy, syz, szz = _group_sum(prods, offsets).T
+    scatter = np.stack([np.stack([sxx, sxy, sxz], -1), np.stack([sxy, syy, syz], -1),
+                        np.stack([sxz, syz, szz], -1)], -2)
     ok = n >= 3
     scatter[~ok] = np.eye(3)
     evals, evecs = np.linalg.eigh(scatter)  # ascending
@@ -123,18 +139,53 @@ def fit_groups(points, offsets, weights=None):
     with np.errstate(invalid="ignore", divide="ignore"):
         var = evals[:, ::-1] / n[:, None]
     var = np.clip(var, 0.0, None)
+    # The smallest variance straight from the residuals: exact to rounding of the residuals
+    # themselves, not of the largest eigenvalue, so near-exact fits agree across platforms.
+    resid = np.sum(c * normal[gid], axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        var[:, 2] = _group_sum((resid * resid)[:, None], offsets)[:, 0] / n
     var[~ok] = np.nan
     normal[~ok] = np.nan
-    centroid = ref + np.nan_to_num(mean)
+    centroid = ref + mean
     centroid[n == 0] = np.nan
     rms = np.sqrt(var[:, 2])
-    zz = np.where(w > 0, p[:, 2], np.nan)
-    zmax = np.full(g, -np.inf)
-    zmin = np.full(g, np.inf)
-    np.fmax.at(zmax, gid, zz)
-    np.fmin.at(zmin, gid, zz)
+    z = p[:, 2]
+    zmax = _group_reduce(np.maximum, np.where(valid, z, -np.inf), offsets, -np.inf)
+    zmin = _group_reduce(np.minimum, np.where(valid, z, np.inf), offsets, np.inf)
     relief = np.where(n > 0, zmax - zmin, np.nan)
     return GroupFit(centroid, normal, var, n.astype(int), rms, relief)
+
+
+def _draw_fit(x, y, z, offsets, gid, ref):
+    """Normals and residual variances of groups of points given as three 1-D arrays.
+
+    The lean kernel of the Monte Carlo loop: the same total-least-squares fit as
+    :func:`fit_groups` (a test checks they agree) without centroids or relief.  ``ref`` (G, 3) is a
+    reference point per group subtracted first for precision.
+    """
+    valid = np.isfinite(x) & np.isfinite(y) & np.isfinite(z)
+    n = _group_sum(valid.astype(float)[:, None], offsets)[:, 0]
+    cols = []
+    for k, v in enumerate((x, y, z)):
+        loc = np.where(valid, v - ref[gid, k], 0.0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            m = _group_sum(loc[:, None], offsets)[:, 0] / n
+        loc -= np.nan_to_num(m)[gid]
+        loc[~valid] = 0.0
+        cols.append(loc)
+    cx, cy, cz = cols
+    s6 = _group_sum(np.column_stack([cx * cx, cx * cy, cx * cz, cy * cy, cy * cz, cz * cz]), offsets)
+    sxx, sxy, sxz, syy, syz, szz = s6.T
+    scatter = np.stack([np.stack([sxx, sxy, sxz], -1), np.stack([sxy, syy, syz], -1),
+                        np.stack([sxz, syz, szz], -1)], -2)
+    ok = n >= 3
+    scatter[~ok] = np.eye(3)
+    evals, evecs = np.linalg.eigh(scatter)
+    normal = evecs[:, :, 0]
+    normal[~ok] = np.nan
+    with np.errstate(invalid="ignore", divide="ignore"):
+        var3 = np.where(ok, np.clip(evals[:, 0], 0.0, None) / n, np.nan)
+    return normal, var3
 
 
 def three_point(a, b, c):
@@ -243,6 +294,10 @@ def assess_quality(
     g = n.shape[0]
     s1, s2, s3 = ev[:, 0], ev[:, 1], ev[:, 2]
     tiny = 1e-300
+    # Floor S3 (and S2) at 1e-18 x S1: below that the eigenvalue is rounding noise, and M and K
+    # would depend on the platform's arithmetic (M is then at most ln 1e18 = 41.4).
+    s3 = np.maximum(s3, 1e-18 * s1)
+    s2 = np.maximum(s2, s3)
     with np.errstate(invalid="ignore", divide="ignore"):
         m = np.log((s1 + tiny) / (s3 + tiny))
         k = np.log((s1 + tiny) / (s2 + tiny)) / np.log((s2 + tiny) / (s3 + tiny))
@@ -356,9 +411,27 @@ def _interval_stats(reference_normal, draw_normals):
     dd_s = np.degrees(np.arctan2(aligned[..., 0], aligned[..., 1]))
     dd0 = np.degrees(np.arctan2(reference_normal[:, 0], reference_normal[:, 1]))
     dev = (dd_s - dd0[None] + 180.0) % 360.0 - 180.0
-    dip_lo, dip_hi = np.nanpercentile(dip_s, [2.5, 97.5], axis=0)
-    dev_lo, dev_hi = np.nanpercentile(dev, [2.5, 97.5], axis=0)
+    dip_lo, dip_hi = _nan_percentiles(dip_s, (2.5, 97.5))
+    dev_lo, dev_hi = _nan_percentiles(dev, (2.5, 97.5))
     return dip_lo, dip_hi, dev_lo, dev_hi
+
+
+def _nan_percentiles(a, qs):
+    """Percentiles along axis 0 ignoring NaN, vectorised over columns (numpy's ``nanpercentile``
+    with linear interpolation, without its per-column Python loop).  All-NaN columns give NaN."""
+    s = np.sort(a, axis=0)  # NaN sorts last
+    k = np.sum(np.isfinite(a), axis=0)
+    cols = np.arange(a.shape[1])
+    out = []
+    for q in qs:
+        pos = (k - 1) * (q / 100.0)
+        lo = np.clip(np.floor(pos).astype(np.intp), 0, a.shape[0] - 1)
+        hi = np.clip(lo + 1, 0, a.shape[0] - 1)
+        hi = np.minimum(hi, np.maximum(k - 1, 0))
+        f = pos - lo
+        v = s[lo, cols] * (1 - f) + s[hi, cols] * f
+        out.append(np.where(k > 0, v, np.nan))
+    return out
 
 
 def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=0, seed=0,
@@ -376,8 +449,8 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
     seed : int
         Seed of the random generator (results are reproducible for a seed).
     perturb : callable, optional
-        ``perturb(rng) -> (N, 3)`` returning one perturbed copy of ``points`` (NaN where a draw
-        loses a point).  Default: independent Gaussian errors of ``sigma_xy_m`` in x and y and
+        ``perturb(rng) -> (x, y, z)`` returning one perturbed copy of ``points`` as three (N,)
+        arrays (NaN where a draw loses a point).  Default: independent Gaussian errors of ``sigma_xy_m`` in x and y and
         ``sigma_z_m`` in z on every point.  Trace fits pass a perturbation that moves digitised
         vertices and re-samples the DEM.
 
@@ -402,14 +475,16 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
             sig = np.array([sigma_xy_m, sigma_xy_m, sigma_z_m], dtype=float)
 
             def perturb(r):
-                return pts + r.normal(size=pts.shape) * sig
+                q = pts + r.normal(size=pts.shape) * sig
+                return q[:, 0], q[:, 1], q[:, 2]
 
         normals = np.empty((int(draws), g, 3))
         rms2 = np.empty((int(draws), g))
+        offs = np.asarray(offsets, dtype=np.intp)
+        gid, _ = _group_index(offs, pts.shape[0])
+        ref = np.nan_to_num(fit.centroid)
         for i in range(int(draws)):
-            drawn = fit_groups(perturb(rng), offsets)
-            normals[i] = drawn.normal
-            rms2[i] = drawn.rms_m ** 2
+            normals[i], rms2[i] = _draw_fit(*perturb(rng), offs, gid, ref)
         with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns of ill-posed groups
             lo, hi, dlo, dhi = _interval_stats(fit.normal, normals)

@@ -48,6 +48,7 @@ class Grid:
             raise DataError("the raster must be north-up with positive cell width and negative height")
         object.__setattr__(self, "values", v)
         object.__setattr__(self, "transform", t)
+        object.__setattr__(self, "_has_nodata", bool(np.isnan(v).any()))
 
     @classmethod
     def from_array(cls, values, transform, nodata=None, z_factor=1.0):
@@ -110,25 +111,30 @@ def sample_bilinear(grid, x, y):
     row = np.clip(row, 0.0, rows - 1.0)
     c0 = np.minimum(np.floor(col).astype(np.intp), max(cols - 2, 0))
     r0 = np.minimum(np.floor(row).astype(np.intp), max(rows - 2, 0))
-    c1 = np.minimum(c0 + 1, cols - 1)
-    r1 = np.minimum(r0 + 1, rows - 1)
     fc = col - c0
     fr = row - r0
-    v = grid.values
-
-    def term(vals, w):
+    # Gather the four neighbours from the flat array (one pass each).
+    flat = grid.values.ravel()
+    i00 = r0 * cols + c0
+    dc = 1 if cols > 1 else 0
+    dr = cols if rows > 1 else 0
+    w00, w01, w10, w11 = (1 - fc) * (1 - fr), fc * (1 - fr), (1 - fc) * fr, fc * fr
+    z = flat[i00] * w00 + flat[i00 + dc] * w01 + flat[i00 + dr] * w10 + flat[i00 + dr + dc] * w11
+    if grid._has_nodata:
         # Only neighbours that carry weight count: a NaN (nodata) neighbour with weight > 0 makes
         # the result NaN, one with weight 0 (the point lies on the far cell-centre line) does not.
-        # Without this, NaN * 0 poisoned exact cell-centre values on one side of a nodata cell
-        # only (left/above it but not right/below), an asymmetric one-cell growth of nodata.
-        return np.where(w > 0, vals * w, 0.0)
-
-    z = (
-        term(v[r0, c0], (1 - fc) * (1 - fr))
-        + term(v[r0, c1], fc * (1 - fr))
-        + term(v[r1, c0], (1 - fc) * fr)
-        + term(v[r1, c1], fc * fr)
-    )
+        # (Plain NaN * 0 would poison exact cell-centre values on one side of a nodata cell only.)
+        redo = np.flatnonzero(np.isnan(z))
+        if redo.size:
+            zz = np.zeros(redo.size)
+            for off, w in ((0, w00), (dc, w01), (dr, w10), (dr + dc, w11)):
+                vals = flat[i00.ravel()[redo] + off]
+                ww = w.ravel()[redo]
+                zz += np.where(ww > 0, vals * ww, 0.0)
+            shape = np.shape(z)
+            z = np.array(z, dtype=float).reshape(-1)
+            z[redo] = zz
+            z = z.reshape(shape)
     return np.where(outside, np.nan, z)
 
 

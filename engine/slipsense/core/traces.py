@@ -272,11 +272,13 @@ def fit_trace_planes(traces, grid, *, spacing_m=None, sigma_xy_m=0.0, sigma_z_m=
         def perturb(rng):
             moved = vertices + rng.normal(scale=sigma_xy_m, size=vertices.shape) if sigma_xy_m > 0 else vertices
             dxy = dens.at(moved)
-            dz = sample_bilinear(grid, dxy[:, 0], dxy[:, 1])
+            if index is not None:
+                dxy = dxy[index]
+            x, y = dxy[:, 0], dxy[:, 1]
+            z = sample_bilinear(grid, x, y)
             if sigma_z_m > 0:
-                dz = dz + rng.normal(scale=sigma_z_m, size=dz.shape)
-            p = np.column_stack([dxy, dz])
-            return p if index is None else p[index]
+                z = z + rng.normal(scale=sigma_z_m, size=z.shape)
+            return x, y, z
         return perturb
 
     state = {"done": 0}

@@ -256,10 +256,15 @@ def write_tables(path, frames, provenance, overwrite=False):
         else:
             os.remove(tmp)
         existing = set(list_layers(tmp)) if os.path.exists(tmp) else set()
+        meta = {"north_reference": str(provenance.get("north_reference", "grid")),
+                "working_crs": str(provenance.get("working_crs", "")),
+                "made_by": f"{provenance.get('engine', 'slipsense')} {provenance.get('command', '')}".strip()}
         for name, frame in frames.items():
             opts = {"OVERWRITE": "YES"} if name in existing else None
+            # GeoPackage 1.2 for new files: the GDAL of QGIS 3.22 LTR reads it without warnings.
+            dopts = None if os.path.exists(tmp) else {"VERSION": "1.2"}
             pyogrio.write_dataframe(frame, tmp, layer=name, driver="GPKG", layer_options=opts,
-                                    promote_to_multi=False)
+                                    dataset_options=dopts, promote_to_multi=False, layer_metadata=meta)
         rows = []
         if PROVENANCE_LAYER in (set(list_layers(tmp)) if os.path.exists(tmp) else set()):
             old = pyogrio.read_dataframe(tmp, layer=PROVENANCE_LAYER, read_geometry=False)
@@ -269,7 +274,9 @@ def write_tables(path, frames, provenance, overwrite=False):
                          "record": json.dumps(provenance, sort_keys=True, default=str)})
         prov = pd.DataFrame(rows, columns=["layer", "made_by", "record"])
         opts = {"OVERWRITE": "YES"} if PROVENANCE_LAYER in set(list_layers(tmp)) else None
-        pyogrio.write_dataframe(prov, tmp, layer=PROVENANCE_LAYER, driver="GPKG", layer_options=opts)
+        dopts = None if os.path.exists(tmp) else {"VERSION": "1.2"}
+        pyogrio.write_dataframe(prov, tmp, layer=PROVENANCE_LAYER, driver="GPKG", layer_options=opts,
+                                dataset_options=dopts)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

@@ -20,10 +20,6 @@ __all__ = [
 ]
 
 
-def _margin(dem, sigma_xy_m):
-    return 4.0 * float(sigma_xy_m) + 3.0 * dem.cell_size
-
-
 def trace_planes_file(dem, traces, out, *, layer=None, id_field=None, out_layer="trace_planes",
                       windows_layer="trace_windows", band=1, z_factor=1.0, spacing_m=None,
                       sigma_xy_m=5.0, sigma_z_m=2.0, draws=200, seed=0, window_m=None,
@@ -39,7 +35,7 @@ def trace_planes_file(dem, traces, out, *, layer=None, id_field=None, out_layer=
     d = open_dem(dem, band=band, z_factor=z_factor)
     lyr = read_layer(traces, layer, fields=[id_field] if id_field else [], working_crs=d.working_crs)
     ids, tr = lines_to_traces(lyr, id_field)
-    grid = d.grid_for(tr.bounds(), _margin(d, sigma_xy_m))
+    grid = d.grid_for(tr.bounds(), steps.dem_margin_m(d.cell_size, sigma_xy_m))
     step = steps.trace_planes(ids, tr, grid, spacing_m=spacing_m, sigma_xy_m=sigma_xy_m,
                               sigma_z_m=sigma_z_m, draws=draws, seed=seed, window_m=window_m,
                               progress=progress)
@@ -74,12 +70,19 @@ def three_point_file(points, out, *, layer=None, group_field, z_field=None, dem=
     if z_field:
         z = np.asarray(lyr.frame[z_field], dtype=float)
     else:
-        grid = d.grid_for((*xy.min(0), *xy.max(0)), 3 * d.cell_size + 4 * sigma_xy_m)
+        grid = d.grid_for((*xy.min(0), *xy.max(0)), steps.dem_margin_m(d.cell_size, sigma_xy_m))
         from ..core.raster import sample_bilinear
 
         z = sample_bilinear(grid, xy[:, 0], xy[:, 1])
-    groups_raw = lyr.frame[group_field].astype(str).to_numpy()
-    ids, groups, warnings = group_points(groups_raw, xy, z, lyr.feature_ids, lyr.name, z_field)
+    raw = lyr.frame[group_field]
+    null = raw.isna().to_numpy()
+    groups_raw = np.array([_label(v) for v in raw], dtype=object)
+    null_msgs = [f"{lyr.name} feature {fid}: field {group_field!r} is empty; point dropped"
+                 for fid in np.asarray(lyr.feature_ids)[null]]
+    z = np.where(null, np.nan, z)
+    ids, groups, warnings = group_points(groups_raw, xy, z, lyr.feature_ids[~null], lyr.name, z_field,
+                                         keep=~null)
+    warnings = null_msgs + warnings
     step = steps.point_planes(ids, groups, sigma_xy_m=sigma_xy_m, sigma_z_m=sigma_z_m,
                               draws=draws, seed=seed)
     step.warnings = lyr.skipped + warnings + step.warnings
@@ -92,14 +95,23 @@ def three_point_file(points, out, *, layer=None, group_field, z_field=None, dem=
     return step
 
 
-def group_points(group_values, xy, z, feature_ids, name, z_field):
+def _label(v):
+    """Group/plane label as text: integers in float fields lose their '.0'."""
+    if isinstance(v, float) and v.is_integer():
+        return str(int(v))
+    return str(v)
+
+
+def group_points(group_values, xy, z, feature_ids, name, z_field, keep=None):
     """Split points into groups by value (sorted as text); points with no elevation are dropped
     with a message naming the feature.  Returns ``ids, groups, warnings``."""
     warnings = []
+    keep = np.ones(len(z), bool) if keep is None else np.asarray(keep, bool)
     ok = np.isfinite(z)
-    for fid in np.asarray(feature_ids)[~ok]:
+    for fid in np.asarray(feature_ids)[~ok[keep]]:
         what = f"field {z_field!r} is empty" if z_field else "no DEM value under it"
         warnings.append(f"{name} feature {fid}: {what}; point dropped")
+    ok &= keep
     ids = sorted(set(group_values[ok].tolist()))
     groups = [np.column_stack([xy[ok & (group_values == g)], z[ok & (group_values == g)]]) for g in ids]
     if not ids:
@@ -148,7 +160,7 @@ def outcrop_trace_file(planes, dem, out, *, layer="trace_planes", band=1, z_fact
     lyr, ids, dd, dp, cen, ext = read_planes(planes, layer)
     _same_crs(lyr.crs, d.working_crs, lyr.name, dem)
     allxy = np.concatenate(ext)
-    grid = d.grid_for((*allxy.min(0), *allxy.max(0)), max_distance_m + 2 * d.cell_size)
+    grid = d.grid_for((*allxy.min(0), *allxy.max(0)), max_distance_m + steps.dem_margin_m(d.cell_size, cells=2.0))
     step = steps.outcrop_traces(ids, dd, dp, cen, ext, grid, max_distance_m=max_distance_m,
                                 progress=progress)
     params = {"planes": planes, "layer": layer, "dem": dem, "band": band, "z_factor": z_factor,
@@ -186,10 +198,13 @@ def plane_depth_file(collars, planes, out, *, layer=None, planes_layer="trace_pl
     if dem:
         d = open_dem(dem, band=band, z_factor=z_factor)
         _same_crs(plyr.crs, d.working_crs, plyr.name, dem)
-        grid = d.grid_for((*xy.min(0), *xy.max(0)), 3 * d.cell_size)
+        grid = d.grid_for((*xy.min(0), *xy.max(0)), steps.dem_margin_m(d.cell_size))
     else:
         zc = np.asarray(f[z_field], float)
-    pair = f[plane_field].astype(str).tolist() if plane_field else None
+    pair = None
+    if plane_field:
+        pair = [None if v is None or (isinstance(v, float) and np.isnan(v)) else _label(v)
+                for v in f[plane_field]]
     _check_angles(lyr.name, lyr.feature_ids, trend, plunge, trend_field, plunge_field)
     pf = plyr.frame
     have = all(c in pf.columns for c in ("dip_lo95", "dip_hi95", "dip_dir_lo95", "dip_dir_hi95"))
