@@ -2,8 +2,8 @@
 """Build the installable QGIS plugin ZIP: ``dist/slipsense_qgis-<version>.zip``.
 
 The ZIP holds the plugin package ``slipsense_qgis/`` and, inside it, a copy of the engine's
-numpy-only parts as ``slipsense_qgis/slipsense/`` (``__init__.py``, ``errors.py``, ``steps.py``,
-``tables.py``, ``core/``) — never ``io/``, ``tools/`` or ``cli/``, which need rasterio and
+numpy-only parts as ``slipsense_qgis/slipsense/`` (``__init__.py``, ``errors.py``, ``steps/``,
+``tables/``, ``core/``) — never ``io/``, ``tools/`` or ``cli/``, which need rasterio and
 geopandas.  The plugin imports the vendored copy first (``from .slipsense import ...``), so it
 needs nothing but the numpy that QGIS ships.  Standard library only::
 
@@ -21,7 +21,7 @@ REPO = HERE.parent
 PLUGIN = "slipsense_qgis"
 ENGINE = REPO / "engine" / "slipsense"
 #: Parts of the engine shipped with the plugin (files and whole folders, relative to ENGINE).
-ENGINE_PARTS = ("__init__.py", "errors.py", "steps.py", "tables.py", "core")
+ENGINE_PARTS = ("__init__.py", "errors.py", "steps", "tables", "core")
 #: Fixed timestamp: the same sources give the same ZIP bytes.
 EPOCH = (2024, 1, 1, 0, 0, 0)
 

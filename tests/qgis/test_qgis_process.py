@@ -80,7 +80,7 @@ def test_release_zip_installs_into_a_fresh_profile(synth, tmp_path):
     with zipfile.ZipFile(zpath) as zf:
         names = zf.namelist()
     assert all(n.startswith(f"{PLUGIN_ID}/") for n in names)
-    assert f"{PLUGIN_ID}/metadata.txt" in names and f"{PLUGIN_ID}/slipsense/steps.py" in names
+    assert f"{PLUGIN_ID}/metadata.txt" in names and f"{PLUGIN_ID}/slipsense/steps/__init__.py" in names
     assert f"{PLUGIN_ID}/slipsense/core/traces.py" in names
     assert not any("__pycache__" in n or n.endswith(".pyc") for n in names)
     assert not any(n.startswith(f"{PLUGIN_ID}/slipsense/{p}/") for n in names for p in ("io", "tools", "cli"))

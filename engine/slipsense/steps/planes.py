@@ -1,27 +1,19 @@
-"""Capabilities as array-in, table-out steps (numpy only).
-
-Each function here is what one CLI subcommand and one QGIS processing algorithm run: the callers
-only read features into arrays and write the returned :class:`~slipsense.tables.Table` objects.
-Every step returns a :class:`StepResult` with its tables, a summary and per-feature warnings.
-"""
+"""Steps for fault planes: from traces over a DEM, from points, and the plane at depth (numpy only)."""
 from __future__ import annotations
-
-from dataclasses import dataclass, field
 
 import numpy as np
 
-from .core.orientation import check_azimuth, check_plunge
-from .core.planes import planes_from_points
-from .core.raster import Grid, sample_bilinear
-from .core.traces import (
-    Traces,
+from ..core.orientation import check_azimuth, check_plunge
+from ..core.planes import planes_from_points
+from ..core.raster import Grid, sample_bilinear
+from ..core.traces import (
     depth_to_plane,
     fit_trace_planes,
     predicted_trace_segments,
     structure_contours as _structure_contours,
 )
-from .errors import DataError, InputError
-from .tables import (
+from ..errors import DataError, InputError
+from ..tables.planes import (
     contour_table,
     depth_table,
     outcrop_table,
@@ -29,42 +21,9 @@ from .tables import (
     trace_plane_table,
     window_table,
 )
+from .base import StepResult, quality_counts
 
-__all__ = [
-    "StepResult",
-    "dem_margin_m",
-    "trace_planes",
-    "point_planes",
-    "structure_contours",
-    "outcrop_traces",
-    "plane_depths",
-    "quality_counts",
-]
-
-
-@dataclass
-class StepResult:
-    """Tables by output-layer name, a JSON-able summary, and per-feature warnings (strings)."""
-
-    tables: dict
-    summary: dict
-    warnings: list = field(default_factory=list)
-
-
-def dem_margin_m(cell_m, sigma_xy_m=0.0, cells=3.0, sigmas=6.0):
-    """Margin (m) of DEM to read around the features' bounding box.
-
-    ``cells`` DEM cells plus ``sigmas`` × sigma-xy (room for the Monte Carlo moves of vertices;
-    a move beyond 6 sigma has odds below 1e-8).  The CLI and the QGIS plugin both use this, so they
-    read the same cells and give the same numbers.
-    """
-    return float(cells) * float(cell_m) + float(sigmas) * float(sigma_xy_m)
-
-
-def quality_counts(quality):
-    """Counts of each quality word (all four always present)."""
-    q = np.asarray(quality).astype(str)
-    return {w: int(np.sum(q == w)) for w in ("good", "fair", "poor", "ill-posed")}
+__all__ = ["trace_planes", "point_planes", "structure_contours", "outcrop_traces", "plane_depths"]
 
 
 def _plane_warnings(kind, ids, planes):

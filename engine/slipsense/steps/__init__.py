@@ -1,0 +1,20 @@
+"""Capabilities as array-in, table-out steps (numpy only).
+
+Each function here is what one CLI subcommand and one QGIS processing algorithm run: the callers
+only read features into arrays and write the returned :class:`~slipsense.tables.Table` objects.
+Every step returns a :class:`StepResult` with its tables, a summary and per-feature warnings.
+One module per topic; everything is re-exported here.
+"""
+from .base import StepResult, dem_margin_m, quality_counts
+from .planes import outcrop_traces, plane_depths, point_planes, structure_contours, trace_planes
+
+__all__ = [
+    "StepResult",
+    "dem_margin_m",
+    "quality_counts",
+    "trace_planes",
+    "point_planes",
+    "structure_contours",
+    "outcrop_traces",
+    "plane_depths",
+]
