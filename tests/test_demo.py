@@ -67,6 +67,8 @@ def test_demo_depths_to_faults_match_boreholes(demo_planes, tmp_path):
         assert row.status == "ok"
         assert row.along_hole_m == pytest.approx(hit["measured_depth_m"], rel=0.02)
         assert row.depth_lo95 <= hit["vertical_depth_below_collar_m"] <= row.depth_hi95
+        # depth below the ground straight above the intersection (inclined holes differ)
+        assert row.depth_below_surface_m == pytest.approx(hit["depth_below_ground_at_point_m"], rel=0.02)
 
 
 def test_demo_contact_point_groups(tmp_path):

@@ -354,7 +354,8 @@ def raster_window(layer, band, bounds, margin_m, what="the features", feedback=N
     values = raw.astype(float)
     values[nodata] = np.nan
     transform = (a, 0.0, c + col0 * a, 0.0, e, f + row0 * e)
-    return Grid.from_array(values, transform, None)
+    # origin/offset: sample from the raster's own origin, exactly as the command line does
+    return Grid.from_array(values, transform, None, origin=(c, f), offset=(col0, row0))
 
 
 # --------------------------------------------------------------------------------------------

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..errors import DataError
 
-__all__ = ["Grid", "sample_bilinear", "contour_segments"]
+__all__ = ["Grid", "GridSet", "sample_bilinear", "sample_grouped", "contour_segments"]
 
 
 @dataclass(frozen=True)
@@ -34,6 +34,8 @@ class Grid:
 
     values: np.ndarray
     transform: tuple
+    origin: tuple | None = None
+    offset: tuple = (0, 0)
 
     def __post_init__(self):
         v = np.asarray(self.values, dtype=float)
@@ -49,15 +51,23 @@ class Grid:
         object.__setattr__(self, "values", v)
         object.__setattr__(self, "transform", t)
         object.__setattr__(self, "_has_nodata", bool(np.isnan(v).any()))
+        if self.origin is not None:
+            object.__setattr__(self, "origin", (float(self.origin[0]), float(self.origin[1])))
+        object.__setattr__(self, "offset", (int(self.offset[0]), int(self.offset[1])))
 
     @classmethod
-    def from_array(cls, values, transform, nodata=None, z_factor=1.0):
-        """Build a grid, turning ``nodata`` cells into NaN and scaling by ``z_factor``."""
+    def from_array(cls, values, transform, nodata=None, z_factor=1.0, origin=None, offset=(0, 0)):
+        """Build a grid, turning ``nodata`` cells into NaN and scaling by ``z_factor``.
+
+        ``origin`` (x, y of the whole raster's upper-left corner) and ``offset`` (col, row of this
+        window in the raster) make sampling independent of the window: points are located from the
+        raster's own origin, so any two windows of one raster give bit-identical values.
+        """
         v = np.array(values, dtype=float)
         if nodata is not None and np.isfinite(nodata):
             v[v == nodata] = np.nan
         v[~np.isfinite(v)] = np.nan
-        return cls(v * float(z_factor), transform)
+        return cls(v * float(z_factor), transform, origin, offset)
 
     @property
     def cell_size(self):
@@ -104,8 +114,12 @@ def sample_bilinear(grid, x, y):
     y = np.asarray(y, dtype=float)
     a, _, c, _, e, f = grid.transform
     rows, cols = grid.values.shape
-    col = (x - c) / a - 0.5
-    row = (y - f) / e - 0.5
+    if grid.origin is None:
+        col = (x - c) / a - 0.5
+        row = (y - f) / e - 0.5
+    else:  # from the raster's own origin: the same numbers whatever the window
+        col = (x - grid.origin[0]) / a - (grid.offset[0] + 0.5)
+        row = (y - grid.origin[1]) / e - (grid.offset[1] + 0.5)
     outside = ~((col >= -0.5) & (col <= cols - 0.5) & (row >= -0.5) & (row <= rows - 0.5))
     col = np.clip(col, 0.0, cols - 1.0)
     row = np.clip(row, 0.0, rows - 1.0)
@@ -136,6 +150,40 @@ def sample_bilinear(grid, x, y):
             z[redo] = zz
             z = z.reshape(shape)
     return np.where(outside, np.nan, z)
+
+
+@dataclass(frozen=True)
+class GridSet:
+    """Several windows of the same raster, one per group of features (e.g. clusters of traces).
+
+    ``grids[k]`` covers the features whose group index maps to ``k`` through ``group_grid``.
+    Bilinear sampling is local, so sampling a point from any window that contains it and its four
+    neighbours gives the same value as sampling the whole raster: a GridSet and a single window
+    covering everything give identical results.
+    """
+
+    grids: tuple
+    group_grid: np.ndarray
+
+    @property
+    def cell_size(self):
+        return min(g.cell_size for g in self.grids)
+
+
+def sample_grouped(grid, x, y, group):
+    """Sample a :class:`Grid` (``group`` ignored) or a :class:`GridSet` (each point from the
+    window of its group) at ``x``, ``y``; shapes as in :func:`sample_bilinear`."""
+    if isinstance(grid, Grid):
+        return sample_bilinear(grid, x, y)
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    which = np.asarray(grid.group_grid)[np.asarray(group)]
+    z = np.full(x.shape, np.nan)
+    for k, g in enumerate(grid.grids):
+        sel = which == k
+        if np.any(sel):
+            z[sel] = sample_bilinear(g, x[sel], y[sel])
+    return z
 
 
 def contour_segments(x, y, values, level=0.0):

@@ -22,7 +22,7 @@ import numpy as np
 from ..errors import GeometryError, InputError
 from .orientation import line_to_vector, plane_to_normal
 from .planes import PlaneResults, QualityRules, planes_from_points
-from .raster import Grid, contour_segments, sample_bilinear
+from .raster import Grid, contour_segments, sample_bilinear, sample_grouped
 
 __all__ = [
     "Traces",
@@ -234,8 +234,10 @@ def fit_trace_planes(traces, grid, *, spacing_m=None, sigma_xy_m=0.0, sigma_z_m=
     ----------
     traces : Traces
         Map traces, metres, in the CRS of ``grid``.
-    grid : Grid
-        DEM window covering the traces (plus ~3 sigma-xy), elevations in metres.
+    grid : Grid or GridSet
+        DEM window covering the traces (plus the margin of
+        :func:`slipsense.steps.dem_margin_m`), or one window per group of traces (a GridSet whose
+        groups are the trace indices); elevations in metres.
     spacing_m : float, optional
         Densification spacing, metres (default: the DEM cell size).
     sigma_xy_m : float
@@ -260,7 +262,7 @@ def fit_trace_planes(traces, grid, *, spacing_m=None, sigma_xy_m=0.0, sigma_z_m=
     if draws < 0:
         raise InputError(f"draws must be >= 0, got {draws!r}")
     dens = densify(traces, spacing)
-    z = sample_bilinear(grid, dens.xy[:, 0], dens.xy[:, 1])
+    z = sample_grouped(grid, dens.xy[:, 0], dens.xy[:, 1], dens.trace)
     pts = np.column_stack([dens.xy, z])
     t = traces.n_traces
     n_total = np.bincount(dens.trace, minlength=t)
@@ -275,7 +277,7 @@ def fit_trace_planes(traces, grid, *, spacing_m=None, sigma_xy_m=0.0, sigma_z_m=
             if index is not None:
                 dxy = dxy[index]
             x, y = dxy[:, 0], dxy[:, 1]
-            z = sample_bilinear(grid, x, y)
+            z = sample_grouped(grid, x, y, dens.trace if index is None else dens.trace[index])
             if sigma_z_m > 0:
                 z = z + rng.normal(scale=sigma_z_m, size=z.shape)
             return x, y, z

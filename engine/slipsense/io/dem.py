@@ -74,7 +74,31 @@ class Dem:
             data = ds.read(self.band, window=Window(col0, row0, col1 - col0, row1 - row0), masked=True)
         values = np.ma.filled(data.astype(float), np.nan)
         t = (a, 0.0, c + col0 * a, 0.0, e, f + row0 * e)
-        return Grid.from_array(values, t, None, self.z_factor)
+        return Grid.from_array(values, t, None, self.z_factor, origin=(c, f), offset=(col0, row0))
+
+    def grids_for_features(self, boxes, margin_m=0.0, tile_cells=1024):
+        """Windows under groups of features, not the whole raster.
+
+        ``boxes`` is (F, 4) feature bounding boxes (xmin, ymin, xmax, ymax).  Features are grouped by
+        the ``tile_cells``-sized tile their box centre falls in; each group gets one window covering
+        its boxes plus ``margin_m``.  Returns a single :class:`Grid` when one window serves all,
+        else a :class:`GridSet` (sampling either gives the same values).
+        """
+        from ..core.raster import GridSet
+
+        b = np.asarray(boxes, dtype=float).reshape(-1, 4)
+        tile = tile_cells * self.cell_size
+        cx = np.floor((b[:, 0] + b[:, 2]) / 2 / tile).astype(np.int64)
+        cy = np.floor((b[:, 1] + b[:, 3]) / 2 / tile).astype(np.int64)
+        keys, group = np.unique(np.stack([cx, cy], 1), axis=0, return_inverse=True)
+        group = np.asarray(group).reshape(-1)
+        if len(keys) == 1:
+            return self.grid_for((*b[:, :2].min(0), *b[:, 2:].max(0)), margin_m)
+        grids = []
+        for k in range(len(keys)):
+            m = b[group == k]
+            grids.append(self.grid_for((*m[:, :2].min(0), *m[:, 2:].max(0)), margin_m))
+        return GridSet(tuple(grids), group)
 
     def _warped_grid(self, bounds, margin_m):
         import rasterio

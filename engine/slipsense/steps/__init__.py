@@ -5,12 +5,13 @@ only read features into arrays and write the returned :class:`~slipsense.tables.
 Every step returns a :class:`StepResult` with its tables, a summary and per-feature warnings.
 One module per topic; everything is re-exported here.
 """
-from .base import StepResult, dem_margin_m, quality_counts
+from .base import StepResult, collar_margin_m, dem_margin_m, quality_counts
 from .planes import outcrop_traces, plane_depths, point_planes, structure_contours, trace_planes
 
 __all__ = [
     "StepResult",
     "dem_margin_m",
+    "collar_margin_m",
     "quality_counts",
     "trace_planes",
     "point_planes",

@@ -5,7 +5,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["StepResult", "dem_margin_m", "quality_counts"]
+__all__ = ["StepResult", "dem_margin_m", "collar_margin_m", "quality_counts"]
 
 
 @dataclass
@@ -25,6 +25,16 @@ def dem_margin_m(cell_m, sigma_xy_m=0.0, cells=3.0, sigmas=6.0):
     read the same cells and give the same numbers.
     """
     return float(cells) * float(cell_m) + float(sigmas) * float(sigma_xy_m)
+
+
+#: How far from a collar (m) an inclined hole's intersection may lie and still get a ground
+#: elevation above it (the DEM window read around collars reaches this far).
+HOLE_REACH_M = 2000.0
+
+
+def collar_margin_m(cell_m):
+    """Margin (m) of DEM read around collars: the usual cells plus :data:`HOLE_REACH_M`."""
+    return dem_margin_m(cell_m) + HOLE_REACH_M
 
 
 def quality_counts(quality):

@@ -188,7 +188,8 @@ def _subgrid(grid, xy, margin):
     r1 = int(min(np.ceil((y0 - f) / e), rows))
     if c1 - c0 < 2 or r1 - r0 < 2:
         return None
-    return Grid(grid.values[r0:r1, c0:c1], (a, 0.0, c + c0 * a, 0.0, e, f + r0 * e))
+    return Grid(grid.values[r0:r1, c0:c1], (a, 0.0, c + c0 * a, 0.0, e, f + r0 * e), grid.origin,
+                (grid.offset[0] + c0, grid.offset[1] + r0))
 
 
 def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir, dip, centroids,
@@ -210,7 +211,8 @@ def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir,
 
     Returns
     -------
-    StepResult with table ``plane_depths``.
+    StepResult with table ``plane_depths``; ``depth_below_surface_m`` is the depth of the
+    intersection below the ground straight above it (needs the DEM).
     """
     xy = np.asarray(collar_xy, float).reshape(-1, 2)
     n_c = xy.shape[0]
@@ -270,7 +272,15 @@ def plane_depths(collar_ids, collar_xy, grid, trend, plunge, plane_ids, dip_dir,
     for a, b, st in zip(ids_c, ids_p, res.status):
         if st != "ok":
             warnings.append(f"collar {a} / plane {b}: {st}")
-    table = depth_table(ids_c, ids_p, collars, trend[ci], plunge[ci], res, lo_hi)
+    below = np.full(ci.size, np.nan)
+    if grid is not None and ci.size:
+        hit = np.isfinite(res.x)
+        below[hit] = sample_bilinear(grid, res.x[hit], res.y[hit]) - res.z[hit]
+        for a, b in zip(np.asarray(ids_c, dtype=object)[hit & ~np.isfinite(below)],
+                        np.asarray(ids_p, dtype=object)[hit & ~np.isfinite(below)]):
+            warnings.append(f"collar {a} / plane {b}: the intersection lies off the DEM window; "
+                            "no depth below the ground there")
+    table = depth_table(ids_c, ids_p, collars, trend[ci], plunge[ci], res, lo_hi, below)
     return StepResult({"plane_depths": table},
                       {"collars": n_c, "pairs": len(ci), "hits": int(np.sum(res.status == "ok"))},
                       warnings)

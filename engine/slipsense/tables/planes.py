@@ -104,7 +104,7 @@ def outcrop_table(plane_ids, segments, max_distance_m):
     return Table(cols, types, "MultiLineString", geoms, None)
 
 
-def depth_table(collar_ids, plane_ids, collars, trend, plunge, res, depth_range=None):
+def depth_table(collar_ids, plane_ids, collars, trend, plunge, res, depth_range=None, below_surface=None):
     """Table of ``plane_depths``: one row per (collar, plane) pair, geometry the 3-D intersection
     point (or the collar where the hole never meets the plane)."""
     cx, cy, cz = np.asarray(collars, float).T
@@ -115,12 +115,13 @@ def depth_table(collar_ids, plane_ids, collars, trend, plunge, res, depth_range=
         "along_hole_m": res.along_m, "depth_m": res.depth_m,
         "depth_lo95": np.full(len(cx), np.nan) if depth_range is None else depth_range[0],
         "depth_hi95": np.full(len(cx), np.nan) if depth_range is None else depth_range[1],
+        "depth_below_surface_m": np.full(len(cx), np.nan) if below_surface is None else below_surface,
         "hit_x": res.x, "hit_y": res.y, "hit_z": res.z,
         "status": np.asarray(res.status, dtype=object),
     }
     types = {"collar_id": "str", "plane_id": "str", "collar_z": "float", "trend": "float",
              "plunge": "float", "along_hole_m": "float", "depth_m": "float", "depth_lo95": "float",
-             "depth_hi95": "float", "hit_x": "float",
+             "depth_hi95": "float", "depth_below_surface_m": "float", "hit_x": "float",
              "hit_y": "float", "hit_z": "float", "status": "str"}
     geoms = []
     for i in range(len(cx)):

@@ -35,7 +35,8 @@ def trace_planes_file(dem, traces, out, *, layer=None, id_field=None, out_layer=
     d = open_dem(dem, band=band, z_factor=z_factor)
     lyr = read_layer(traces, layer, fields=[id_field] if id_field else [], working_crs=d.working_crs)
     ids, tr = lines_to_traces(lyr, id_field)
-    grid = d.grid_for(tr.bounds(), steps.dem_margin_m(d.cell_size, sigma_xy_m))
+    # Only the DEM windows under groups of traces are read (not the whole raster).
+    grid = d.grids_for_features(trace_boxes(tr), steps.dem_margin_m(d.cell_size, sigma_xy_m))
     step = steps.trace_planes(ids, tr, grid, spacing_m=spacing_m, sigma_xy_m=sigma_xy_m,
                               sigma_z_m=sigma_z_m, draws=draws, seed=seed, window_m=window_m,
                               progress=progress)
@@ -100,6 +101,20 @@ def _label(v):
     if isinstance(v, float) and v.is_integer():
         return str(int(v))
     return str(v)
+
+
+def trace_boxes(traces):
+    """(T, 4) bounding boxes of the traces of a :class:`Traces`."""
+    vt = np.repeat(traces.part_trace, np.diff(traces.part_offsets))
+    xy = traces.xy
+    boxes = np.full((traces.n_traces, 4), np.nan)
+    for k, fn in ((0, np.fmin), (1, np.fmin), (2, np.fmax), (3, np.fmax)):
+        col = xy[:, k % 2]
+        init = np.inf if fn is np.fmin else -np.inf
+        out = np.full(traces.n_traces, init)
+        fn.at(out, vt, col)
+        boxes[:, k] = out
+    return boxes
 
 
 def group_points(group_values, xy, z, feature_ids, name, z_field, keep=None):
@@ -198,7 +213,7 @@ def plane_depth_file(collars, planes, out, *, layer=None, planes_layer="trace_pl
     if dem:
         d = open_dem(dem, band=band, z_factor=z_factor)
         _same_crs(plyr.crs, d.working_crs, plyr.name, dem)
-        grid = d.grid_for((*xy.min(0), *xy.max(0)), steps.dem_margin_m(d.cell_size))
+        grid = d.grid_for((*xy.min(0), *xy.max(0)), steps.collar_margin_m(d.cell_size))
     else:
         zc = np.asarray(f[z_field], float)
     pair = None

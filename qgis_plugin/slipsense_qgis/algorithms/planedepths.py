@@ -151,7 +151,7 @@ class PlaneDepthsAlgorithm(SlipsenseAlgorithm):
                              dip_dir_interval=(cols["dip_dir_lo95"], cols["dip_dir_hi95"]))
         grid, collar_z = None, None
         if dem is not None:
-            margin = adapter.dem_margin_m(adapter.raster_cell_size(dem))
+            margin = steps.collar_margin_m(adapter.raster_cell_size(dem))
             bounds = (*xy[keep].min(axis=0), *xy[keep].max(axis=0))
             grid = adapter.raster_window(dem, self.band(parameters, self.BAND, context), bounds, margin,
                                          "the collars", feedback)
