@@ -6,7 +6,7 @@ VENV   ?= .venv
 PY     := $(VENV)/bin/python
 OUT    ?= demo_out
 
-.PHONY: venv demo test test-engine test-qgis qgis plugin-zip clean
+.PHONY: venv demo test test-engine test-qgis qgis plugin-zip clean bench
 
 $(VENV)/.installed: pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -17,7 +17,7 @@ $(VENV)/.installed: pyproject.toml
 venv: $(VENV)/.installed
 
 demo: venv
-	$(PY) demo_gpkg/run_demo.py --out-dir $(OUT)
+	$(PY) -m slipsense.cli.main run demo_gpkg/demo_analysis.toml --out-dir $(OUT)
 
 test: venv qgis
 	$(PY) -m pytest tests --ignore=tests/qgis
@@ -31,6 +31,9 @@ test-qgis: venv qgis
 
 qgis:
 	bash qgis_plugin/install_qgis.sh
+
+bench: venv  ## benchmarks (minutes; BENCH_ARGS=--quick for a small run); writes bench/results.md
+	$(PY) bench/run.py $(BENCH_ARGS)
 
 plugin-zip:
 	/usr/bin/python3 qgis_plugin/build_zip.py --out dist

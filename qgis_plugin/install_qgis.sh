@@ -10,6 +10,8 @@ need=()
 # for the QGIS tests' own readers (neither is a hard dependency of python3-qgis).
 /usr/bin/python3 -c "import numpy" 2>/dev/null || need+=(python3-numpy)
 /usr/bin/python3 -c "from osgeo import gdal" 2>/dev/null || need+=(python3-gdal)
+# Debian's chromium for the headless-browser test of the HTML report (tests/test_report_browser.py).
+command -v chromium >/dev/null 2>&1 || need+=(chromium)
 if [ ${#need[@]} -eq 0 ]; then exit 0; fi
 SUDO=""
 if [ "$(id -u)" != "0" ]; then SUDO="sudo"; fi

@@ -336,3 +336,11 @@ def test_layer_metadata_records_north_reference(cli, world, tmp_path):
     con = sqlite3.connect(out)
     assert con.execute("pragma user_version").fetchone()[0] == 10200  # GeoPackage 1.2
     con.close()
+
+
+def test_new_output_file_has_the_usual_permissions(cli, world, tmp_path):
+    out = tmp_path / "o.gpkg"
+    assert run_planes(cli, world, out)[0] == 0
+    umask = os.umask(0)
+    os.umask(umask)
+    assert (os.stat(out).st_mode & 0o777) == (0o666 & ~umask)

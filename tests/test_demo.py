@@ -88,26 +88,30 @@ def test_demo_contact_point_groups(tmp_path):
             assert angle_between_planes(row.dip_dir, row.dip, g["dip_dir"], g["dip"]) < 0.05
 
 
+@pytest.mark.slow
 def test_demo_command_runs(tmp_path, capsys):
-    """README quick start: the demo command writes every layer and says where the results are."""
-    import runpy
-    import sys
+    """README quick start (``make demo``): the demo analysis file runs end to end, writes every
+    layer, the report and the section figures, and says where the results are."""
+    import sqlite3
 
-    argv = sys.argv
-    sys.argv = ["run_demo.py", "--out-dir", str(tmp_path)]
-    try:
-        with pytest.raises(SystemExit) as exc:
-            runpy.run_path(str(DEMO / "run_demo.py"), run_name="__main__")
-    finally:
-        sys.argv = argv
-    assert exc.value.code == 0
+    from slipsense.cli.main import main
+
+    code = main(["run", str(DEMO / "demo_analysis.toml"), "--out-dir", str(tmp_path)])
+    assert code == 0
     text = capsys.readouterr().out
-    assert "results:" in text and "qualified professional" in text
+    assert f"results: {tmp_path / 'demo_results.gpkg'}" in text and "qualified professional" in text
+    assert f"report: {tmp_path / 'demo_report.html'}" in text
     import pyogrio
 
     layers = {n for n, _ in pyogrio.list_layers(str(tmp_path / "demo_results.gpkg"))}
     assert {"trace_planes", "trace_windows", "structure_contours", "outcrop_traces", "plane_depths",
-            "point_planes", "orientations", "slipsense_provenance"} <= layers
+            "point_planes", "orientations", "slipsense_provenance", "slipsense_run", "layer_styles"} <= layers
+    with sqlite3.connect(tmp_path / "demo_results.gpkg") as con:
+        styled = {r[0] for r in con.execute("SELECT f_table_name FROM layer_styles WHERE useAsDefault")}
+        features = {r[0] for r in con.execute("SELECT table_name FROM gpkg_contents WHERE data_type='features'")}
+    assert features <= styled  # every output layer opens styled in QGIS
+    report = (tmp_path / "demo_report.html").read_text()
+    assert report.count("<img src=\"data:image/png;base64,") >= 3 and "qualified professional" in report
 
 
 def test_generator_is_deterministic(tmp_path):

@@ -12,6 +12,10 @@ from qgishelpers import PLUGIN_DIR, PLUGIN_ID, PROVIDER_ID, qgis_process_env, ru
 from qgishelpers import gpkg_rows, gpkg_tables
 
 ALGORITHMS = ("traceplanes", "pointplanes", "structurecontours", "outcroptraces", "planedepths")
+ALGORITHMS += ("netslip", "mapslip")  # net slip (issue 4)
+ALGORITHMS += ("faultslip",)  # fault-slip data and kinematic axes (issue 4)
+ALGORITHMS += ("stressinversion", "sliptendency")  # stress (issue 6)
+ALGORITHMS += ("crosssection",)  # cross-sections (issue 5)
 
 
 def _json(proc):

@@ -15,6 +15,14 @@ COMMANDS = {
     "outcrop-trace": ("outcrop_trace", "predicted outcrop trace of fitted planes across the DEM"),
     "plane-depth": ("plane_depth", "depth to fitted planes below collars (vertical or inclined holes)"),
     "orientations": ("orientations", "read plane measurements (quadrant or azimuth notation) and refer them to grid north"),
+    "run": ("run", "run a whole analysis from a project file (TOML): steps, one results GeoPackage, a report"),
+    "fault-slip": ("fault_slip", "fault-slip data: rake, slip direction, sense, fault type, P/T/B axes and population axes"),
+    "net-slip": ("net_slip", "net slip of faults from a table of marker separations, slip directions and piercing points"),
+    "map-slip": ("map_slip", "net slip of fitted faults from mapped marker contacts over a DEM (and slip stations)"),
+    "stress-inversion": ("stress_inversion", "palaeostress (sigma1-3 axes, phi, regime, SHmax) from fault-slip data, with bootstrap cones"),
+    "slip-tendency": ("slip_tendency", "slip and dilation tendency and pore pressure to failure of mapped faults in a stress"),
+    "anderson": ("anderson", "Andersonian check of fault dips for their slip type, and the axes that would drive them"),
+    "cross-section": ("cross_section", "cross-sections along section lines: profile, apparent dips, projected data, apparent offsets and net slip"),
 }
 
 

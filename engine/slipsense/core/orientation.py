@@ -143,8 +143,9 @@ def normal_to_plane(normal):
     n = n * sign[..., None]
     # abs(): a normal whose up component is a rounding-level negative (kept unflipped above as a
     # vertical plane) must still give a dip of at most 90.
-    dip = np.degrees(np.arccos(np.clip(np.abs(n[..., 2]), 0.0, 1.0)))
+    # atan2 rather than acos: full precision for gentle dips too (acos(1 - 1e-16) is 0).
     horiz = np.hypot(n[..., 0], n[..., 1])
+    dip = np.degrees(np.arctan2(horiz, np.abs(n[..., 2])))
     dip_dir = np.where(horiz < 1e-10, 0.0, np.degrees(np.arctan2(n[..., 0], n[..., 1])))
     dip_dir = normalize_azimuth(dip_dir)
     bad = ~(length > 0)

@@ -34,6 +34,9 @@ __all__ = [
     "PlaneResults",
     "planes_from_points",
     "align_normals",
+    "draw_summary",
+    "assemble_planes",
+    "concat_fits",
 ]
 
 #: Quality words, best first.
@@ -460,15 +463,8 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
     """
     pts = np.asarray(points, dtype=float)
     fit = fit_groups(pts, offsets)
-    dip_dir, dip = normal_to_plane(fit.normal)
-    dip_dir = np.atleast_1d(dip_dir)
-    dip = np.atleast_1d(dip)
-    g = dip.shape[0]
-    misfit = np.full(g, np.nan)
-    lo = np.full(g, np.nan)
-    hi = np.full(g, np.nan)
-    dlo = np.full(g, np.nan)
-    dhi = np.full(g, np.nan)
+    g = fit.normal.shape[0]
+    mc = None
     if draws and draws > 0 and (sigma_xy_m > 0 or sigma_z_m > 0):
         rng = np.random.default_rng(seed)
         if perturb is None:
@@ -485,13 +481,60 @@ def planes_from_points(points, offsets, *, sigma_xy_m=0.0, sigma_z_m=0.0, draws=
         ref = np.nan_to_num(fit.centroid)
         for i in range(int(draws)):
             normals[i], rms2[i] = _draw_fit(*perturb(rng), offs, gid, ref)
-        with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
-            warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns of ill-posed groups
-            lo, hi, dlo, dhi = _interval_stats(fit.normal, normals)
-            # Misfit check: a draw's residual variance is about the data's plus the stated errors'
-            # own, so their difference estimates what the stated errors alone explain.
-            noise2 = np.nanmedian(rms2, axis=0) - fit.rms_m ** 2
-            misfit = fit.rms_m / np.sqrt(np.maximum(noise2, 1e-24))
+        mc = draw_summary(fit, normals, rms2)
+    return assemble_planes(fit, mc, sigma_xy_m, sigma_z_m, rules)
+
+
+def draw_summary(fit, normals, rms2):
+    """Interval bounds and misfit ratio of groups from their Monte Carlo draws.
+
+    Parameters
+    ----------
+    fit : GroupFit
+        The fit of the unperturbed points (G groups).
+    normals : (D, G, 3) unit normals of the D draws (NaN where a draw has no plane)
+    rms2 : (D, G) residual variance of each draw, m²
+
+    Returns
+    -------
+    tuple of (G,) arrays ``(dip_lo, dip_hi, dev_lo, dev_hi, misfit)``: the raw (not yet widened)
+    dip interval, the dip-direction deviation interval from the fitted dip direction (degrees),
+    and the misfit ratio.  Every column depends only on its own group's draws.
+    """
+    with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns of ill-posed groups
+        lo, hi, dlo, dhi = _interval_stats(fit.normal, normals)
+        # Misfit check: a draw's residual variance is about the data's plus the stated errors'
+        # own, so their difference estimates what the stated errors alone explain.
+        noise2 = np.nanmedian(rms2, axis=0) - fit.rms_m ** 2
+        misfit = fit.rms_m / np.sqrt(np.maximum(noise2, 1e-24))
+    return lo, hi, dlo, dhi, misfit
+
+
+def concat_fits(fits):
+    """One :class:`GroupFit` from several, groups in the order given."""
+    if len(fits) == 1:
+        return fits[0]
+    return GroupFit(*(np.concatenate([getattr(f, k.name) for f in fits]) for k in fields(GroupFit)))
+
+
+def assemble_planes(fit, mc, sigma_xy_m=0.0, sigma_z_m=0.0, rules=QualityRules()):
+    """:class:`PlaneResults` from a fit and (optionally) its :func:`draw_summary`.
+
+    The intervals are widened by the misfit ratio where it exceeds 1, the quality words are given
+    by :func:`assess_quality`, and ill-posed rows lose their orientation.
+    """
+    dip_dir, dip = normal_to_plane(fit.normal)
+    dip_dir = np.atleast_1d(dip_dir)
+    dip = np.atleast_1d(dip)
+    g = dip.shape[0]
+    misfit = np.full(g, np.nan)
+    lo = np.full(g, np.nan)
+    hi = np.full(g, np.nan)
+    dlo = np.full(g, np.nan)
+    dhi = np.full(g, np.nan)
+    if mc is not None:
+        lo, hi, dlo, dhi, misfit = mc
         # Inflate the intervals by the misfit ratio where the plane fits worse than the stated
         # errors explain (the usual reduced-chi-square scaling of least squares; common practice).
         inflate = np.where(misfit > 1.0, misfit, 1.0)

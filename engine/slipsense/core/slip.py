@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .orientation import dip_vector, plane_to_normal, strike_vector, vector_to_line
+from .orientation import dip_vector, normalize_azimuth, plane_to_normal, strike_vector, vector_to_line
 
 __all__ = [
     "SenseRules",
@@ -45,12 +45,32 @@ class SenseRules:
       (octant bins; common practice).
     * ``thrust_max_dip`` (45): a reverse(-dominant) fault dipping at most this is a thrust
       (common practice: "thrust = reverse on a low-angle plane"; some authors use 30°).
-    * ``min_slip_m`` (0): slips at or below this magnitude are "none".
+    * ``min_slip_m`` (0): slips at or below this magnitude are "none" (an unknown, NaN,
+      magnitude gives ``""``, not "none").
+
+    Reading field data (:func:`slipsense.core.kinematics.slip_from_measurements`):
+
+    * ``misfit_tol_deg`` (20): a lineation at most this far off its measured fault plane is
+      projected onto the plane; a larger misfit is rejected.  Judgement (common practice): compass
+      readings of a plane and of a lineation each carry a few degrees of error and fault surfaces
+      undulate, so misfits up to about 10° are routine; 20° leaves room for that and still rejects
+      a lineation that cannot belong to the plane (a mis-read or mis-recorded pair).
+    * ``sense_min_deg`` (10): a sense word can only pick the end of a lineation (or be checked
+      against a rake) when the component it speaks of is clear: a dip-slip word (normal, reverse)
+      needs the lineation at least this far from the strike line, a strike-slip word (dextral,
+      sinistral) at least this far from the dip line, and a hanging-wall motion azimuth a line at
+      least this far from vertical and from the horizontal perpendicular to that azimuth.
+      Judgement: about twice a typical compass error.
+    * ``motion_azimuth_max_deg`` (45): a hanging-wall motion azimuth more than this from the
+      trend of the slip it selects contradicts the lineation (judgement).
     """
 
     pure_deg: float = 22.5
     thrust_max_dip: float = 45.0
     min_slip_m: float = 0.0
+    misfit_tol_deg: float = 20.0
+    sense_min_deg: float = 10.0
+    motion_azimuth_max_deg: float = 45.0
 
 
 SENSE_RULES = SenseRules()
@@ -92,7 +112,7 @@ def vector_to_rake(dip_dir, dip, vector):
     inplane = np.hypot(a, b)
     total = np.linalg.norm(v, axis=-1)
     rake = np.degrees(np.arctan2(b, a))
-    rake = np.where(rake <= -180.0, 180.0, rake)
+    rake = np.where(rake <= -180.0, 180.0, rake) + 0.0  # + 0.0: no "-0.0" rakes
     with np.errstate(invalid="ignore"):
         bad = ~(inplane > 1e-12 * np.maximum(total, 1e-300))
     out = np.where(bad, np.nan, rake)
@@ -121,7 +141,7 @@ def slip_components(dip_dir, dip, slip_m):
     heave_s = np.sum(u * dh, axis=-1)
     with np.errstate(invalid="ignore", divide="ignore"):
         plunge = np.degrees(np.arcsin(np.clip(-u[..., 2] / net, -1.0, 1.0)))
-    trend = np.mod(np.degrees(np.arctan2(u[..., 0], u[..., 1])), 360.0)
+    trend = np.asarray(normalize_azimuth(np.degrees(np.arctan2(u[..., 0], u[..., 1]))))  # < 360
     trend = np.where(horiz < 1e-12, 0.0, trend)
     return {
         "net_slip_m": net,
@@ -160,7 +180,8 @@ def sense_words(rake, net_slip_m=None, rules=SENSE_RULES):
 
     ``normal``, ``reverse``, ``dextral``, ``sinistral`` or two of them joined by a hyphen
     (``normal-dextral``: mainly normal with a dextral part), ``none`` for zero slip and ``""`` for
-    NaN rake.  Thresholds: :class:`SenseRules`.
+    a NaN rake or a NaN (unknown) magnitude.  When both components are equally far from pure
+    (|rake| 45 or 135) the strike-slip word comes first.  Thresholds: :class:`SenseRules`.
 
     >>> sense_words(-90.0), sense_words(-45.0 - 20.0), sense_words(170.0)
     ('normal', 'normal-sinistral', 'dextral')
@@ -169,10 +190,10 @@ def sense_words(rake, net_slip_m=None, rules=SENSE_RULES):
     mags = None if net_slip_m is None else np.broadcast_to(np.asarray(net_slip_m, float), r.shape)
     out = []
     for i, v in enumerate(r.ravel()):
-        if mags is not None and not (mags.ravel()[i] > rules.min_slip_m):
-            out.append("none")
-        elif not np.isfinite(v):
+        if not np.isfinite(v) or (mags is not None and not np.isfinite(mags.ravel()[i])):
             out.append("")
+        elif mags is not None and not (mags.ravel()[i] > rules.min_slip_m):
+            out.append("none")
         else:
             a, b = _words(v, rules)
             out.append(a if b is None else f"{a}-{b}")
@@ -196,11 +217,11 @@ def fault_type(rake, dip, net_slip_m=None, rules=SENSE_RULES):
     mags = None if net_slip_m is None else np.broadcast_to(np.asarray(net_slip_m, float), r.shape)
     out = []
     for i, v in enumerate(r.ravel()):
+        if not np.isfinite(v) or (mags is not None and not np.isfinite(mags.ravel()[i])):
+            out.append("")
+            continue
         if mags is not None and not (mags.ravel()[i] > rules.min_slip_m):
             out.append("none")
-            continue
-        if not np.isfinite(v):
-            out.append("")
             continue
         a, b = _words(v, rules)
         low = d.ravel()[i] <= rules.thrust_max_dip
@@ -230,9 +251,11 @@ def pt_axes(dip_dir, dip, slip_unit):
     n = plane_to_normal(dip_dir, dip)
     u = np.asarray(slip_unit, dtype=float)
     u = u / np.linalg.norm(u, axis=-1, keepdims=True)
-    t = (n + u) / np.sqrt(2.0)
-    p = (n - u) / np.sqrt(2.0)
+    t = n + u
+    p = n - u
     b = np.cross(n, u)
+    # Unit axes even when u is not exactly in the plane (then n + u and n - u are not of length √2).
+    t, p, b = (v / np.linalg.norm(v, axis=-1, keepdims=True) for v in (t, p, b))
     out = {"p": p, "t": t, "b": b}
     for name, v in (("p", p), ("t", t), ("b", b)):
         tr, pl = vector_to_line(v)

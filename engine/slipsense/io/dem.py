@@ -1,4 +1,10 @@
-"""DEM access through rasterio: only the windows under the features are read."""
+"""DEM access through rasterio: only the windows (or the blocks) under the features are read.
+
+Two ways in: :meth:`Dem.grid_for` / :meth:`Dem.grids_for_features` read windows into
+:class:`~slipsense.core.raster.Grid` objects; :meth:`Dem.block_raster` gives a
+:class:`~slipsense.core.raster.BlockRaster` that reads the file's own blocks (its internal tiling)
+lazily, each at most once while work needs it, and samples bit for bit the same values.
+"""
 from __future__ import annotations
 
 import math
@@ -10,7 +16,7 @@ from ..core.raster import Grid
 from ..errors import CRSError, DataError, FileFormatError
 from .crs import as_crs, require_projected, utm_crs_for
 
-__all__ = ["Dem", "open_dem"]
+__all__ = ["Dem", "DemBlocks", "open_dem"]
 
 
 @dataclass
@@ -56,6 +62,19 @@ class Dem:
         if self.warped:
             return self._warped_grid(bounds, margin_m)
         a, _, c, _, e, f = self.transform
+        col0, row0, col1, row1 = self.window_for(bounds, margin_m)
+        with rasterio.open(self.path) as ds:
+            data = ds.read(self.band, window=Window(col0, row0, col1 - col0, row1 - row0), masked=True)
+        values = np.ma.filled(data.astype(float), np.nan)
+        t = (a, 0.0, c + col0 * a, 0.0, e, f + row0 * e)
+        return Grid.from_array(values, t, None, self.z_factor, origin=(c, f), offset=(col0, row0))
+
+    def window_for(self, bounds, margin_m=0.0):
+        """``(col0, row0, col1, row1)`` of the cells covering ``bounds`` plus margin (working CRS).
+
+        Raises :class:`DataError` when the bounds miss the DEM.
+        """
+        a, _, c, _, e, f = self.transform
         x0, y0, x1, y1 = bounds
         x0 -= margin_m
         y0 -= margin_m
@@ -70,11 +89,7 @@ class Dem:
                 f"the features lie off the DEM {self.path} (they cover x {bounds[0]:.0f}–{bounds[2]:.0f}, "
                 f"y {bounds[1]:.0f}–{bounds[3]:.0f} in its CRS)"
             )
-        with rasterio.open(self.path) as ds:
-            data = ds.read(self.band, window=Window(col0, row0, col1 - col0, row1 - row0), masked=True)
-        values = np.ma.filled(data.astype(float), np.nan)
-        t = (a, 0.0, c + col0 * a, 0.0, e, f + row0 * e)
-        return Grid.from_array(values, t, None, self.z_factor, origin=(c, f), offset=(col0, row0))
+        return col0, row0, col1, row1
 
     def grids_for_features(self, boxes, margin_m=0.0, tile_cells=1024):
         """Windows under groups of features, not the whole raster.
@@ -99,6 +114,19 @@ class Dem:
             m = b[group == k]
             grids.append(self.grid_for((*m[:, :2].min(0), *m[:, 2:].max(0)), margin_m))
         return GridSet(tuple(grids), group)
+
+    def block_raster(self, margin_m=0.0, cache_mb=512.0, runner=None):
+        """The whole DEM as a :class:`~slipsense.core.raster.BlockRaster` read block by block.
+
+        Raises :class:`DataError` for a geographic DEM (warp it, or use :meth:`grid_for`).
+        """
+        return self.block_spec(margin_m, cache_mb).open(runner)
+
+    def block_spec(self, margin_m=0.0, cache_mb=512.0):
+        """A picklable :class:`DemBlocks` recipe of :meth:`block_raster` (for worker processes)."""
+        if self.warped:
+            raise DataError(f"DEM {self.path} is geographic: it is warped by windows, not read by blocks")
+        return DemBlocks(self.path, self.band, self.z_factor, float(margin_m), float(cache_mb))
 
     def _warped_grid(self, bounds, margin_m):
         import rasterio
@@ -126,6 +154,73 @@ class Dem:
         lat = abs(self.transform[5] + self.transform[4] * self.height / 2)
         deg = min(abs(self.transform[0]), abs(self.transform[4]))
         return max(deg * 111_320.0 * max(math.cos(math.radians(min(lat, 89.0))), 0.05), 0.01)
+
+
+#: Storage types that hold every value of the raster's type exactly in float32.
+_FLOAT32_EXACT = {"float32", "int8", "uint8", "int16", "uint16"}
+
+
+@dataclass(frozen=True)
+class DemBlocks:
+    """How to open a DEM block by block: picklable, so worker processes open their own copy."""
+
+    path: str
+    band: int = 1
+    z_factor: float = 1.0
+    margin_m: float = 0.0
+    cache_mb: float = 512.0
+
+    def open(self, runner=None):
+        """A :class:`~slipsense.core.raster.BlockRaster` over the file (opened once, lazily)."""
+        import rasterio
+
+        from ..core.raster import BlockRaster
+
+        with rasterio.open(self.path) as ds:
+            bh, bw = ds.block_shapes[self.band - 1]
+            dtype = ds.dtypes[self.band - 1]
+            width, height, t = ds.width, ds.height, tuple(ds.transform)[:6]
+        # Tiles are read as they are; strips or huge blocks are read in 256 x 256 windows
+        # (GDAL's own cache keeps the strips they cut).
+        if not (16 <= bh <= 4096 and 16 <= bw <= 4096):
+            bh, bw = 256, 256
+        storage = np.float32 if dtype in _FLOAT32_EXACT else np.float64
+        return BlockRaster(_BlockReader(self.path, self.band), width, height, t, (bh, bw),
+                           z_factor=self.z_factor, margin_m=self.margin_m, cache_mb=self.cache_mb,
+                           runner=runner, spec=self, storage=storage)
+
+
+#: GDAL block cache while reading blocks, bytes (it only helps with strip-organised files).
+GDAL_CACHE_BYTES = 64 * 2**20
+
+
+class _BlockReader:
+    """Reads windows of one band with rasterio (nodata and masks as NaN); keeps the file open."""
+
+    def __init__(self, path, band):
+        self.path = path
+        self.band = band
+        self._ds = None
+
+    def __call__(self, col0, row0, ncols, nrows):
+        import rasterio
+        from rasterio.windows import Window
+
+        # slipsense keeps the blocks it needs itself: GDAL's own block cache (by default 5 % of
+        # the RAM) is held small so that memory does not grow with the DEM.
+        with rasterio.Env(GDAL_CACHEMAX=GDAL_CACHE_BYTES):
+            if self._ds is None:
+                self._ds = rasterio.open(self.path)
+            data = self._ds.read(self.band, window=Window(col0, row0, ncols, nrows), masked=True)
+        return np.ma.filled(data.astype(float), np.nan)
+
+    def __del__(self):
+        ds, self._ds = self._ds, None
+        if ds is not None:
+            try:
+                ds.close()
+            except Exception:  # noqa: BLE001 - closing at interpreter exit
+                pass
 
 
 def open_dem(path, band=1, z_factor=1.0, working_crs=None):

@@ -277,6 +277,17 @@ def write_tables(path, frames, provenance, overwrite=False):
         dopts = None if os.path.exists(tmp) else {"VERSION": "1.2"}
         pyogrio.write_dataframe(prov, tmp, layer=PROVENANCE_LAYER, driver="GPKG", layer_options=opts,
                                 dataset_options=dopts)
+        from ..styles import add_default_styles  # default QGIS style of each layer (layer_styles)
+
+        add_default_styles(tmp, list(frames))
+        # mkstemp makes the file private (0600): give it the mode of the file it replaces, or the
+        # usual mode under the user's umask for a new file.
+        if os.path.exists(path):
+            os.chmod(tmp, os.stat(path).st_mode & 0o7777)
+        else:
+            umask = os.umask(0)
+            os.umask(umask)
+            os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

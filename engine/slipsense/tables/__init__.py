@@ -54,6 +54,19 @@ def _plain(v, kind):
 
 
 
+from .kinematics import FAULT_SLIP_FIELDS, KINEMATIC_AXES_FIELDS, fault_slip_table, kinematic_axes_table  # noqa: E402
+from .netslip import NETSLIP_FIELDS, marker_fit_table, net_slip_table, slip_vector_table  # noqa: E402
+from .sections import SECTION_LAYERS, section_table  # noqa: E402
+from .stress import (  # noqa: E402
+    ANDERSON_FIELDS,
+    SLIP_TENDENCY_FIELDS,
+    STRESS_AXES_FIELDS,
+    STRESS_MISFIT_FIELDS,
+    anderson_table,
+    slip_tendency_table,
+    stress_axes_table,
+    stress_misfit_table,
+)
 from .planes import (  # noqa: E402
     PLANE_FIELDS,
     contour_table,
@@ -73,4 +86,22 @@ __all__ = [
     "outcrop_table",
     "depth_table",
     "PLANE_FIELDS",
+    "fault_slip_table",
+    "kinematic_axes_table",
+    "FAULT_SLIP_FIELDS",
+    "KINEMATIC_AXES_FIELDS",
+    "net_slip_table",
+    "marker_fit_table",
+    "slip_vector_table",
+    "NETSLIP_FIELDS",
+    "section_table",
+    "SECTION_LAYERS",
+    "stress_axes_table",
+    "stress_misfit_table",
+    "slip_tendency_table",
+    "anderson_table",
+    "STRESS_AXES_FIELDS",
+    "STRESS_MISFIT_FIELDS",
+    "SLIP_TENDENCY_FIELDS",
+    "ANDERSON_FIELDS",
 ]

@@ -23,8 +23,14 @@ __all__ = [
 def trace_planes_file(dem, traces, out, *, layer=None, id_field=None, out_layer="trace_planes",
                       windows_layer="trace_windows", band=1, z_factor=1.0, spacing_m=None,
                       sigma_xy_m=5.0, sigma_z_m=2.0, draws=200, seed=0, window_m=None,
-                      overwrite=False, progress=None):
+                      overwrite=False, progress=None, threads=1, workers=None, scheduler=None,
+                      cache_mb=512.0):
     """Fit a plane to every trace of a line layer over a DEM and write ``out_layer`` (and windows).
+
+    The DEM is read block by block (its internal tiling), each block once while traces need it.
+    ``threads`` runs spatial tiles of traces on that many threads; ``workers`` (a local Dask
+    cluster of that many processes) or ``scheduler`` (the address of a running dask.distributed
+    scheduler) runs them on Dask.  The numbers are the same whichever way the work is run.
 
     Returns the :class:`~slipsense.steps.StepResult` (with ``summary['layers']`` written).
     """
@@ -35,11 +41,41 @@ def trace_planes_file(dem, traces, out, *, layer=None, id_field=None, out_layer=
     d = open_dem(dem, band=band, z_factor=z_factor)
     lyr = read_layer(traces, layer, fields=[id_field] if id_field else [], working_crs=d.working_crs)
     ids, tr = lines_to_traces(lyr, id_field)
-    # Only the DEM windows under groups of traces are read (not the whole raster).
-    grid = d.grids_for_features(trace_boxes(tr), steps.dem_margin_m(d.cell_size, sigma_xy_m))
-    step = steps.trace_planes(ids, tr, grid, spacing_m=spacing_m, sigma_xy_m=sigma_xy_m,
-                              sigma_z_m=sigma_z_m, draws=draws, seed=seed, window_m=window_m,
-                              progress=progress)
+    margin = steps.dem_margin_m(d.cell_size, sigma_xy_m)
+    if threads is None or int(threads) < 1:
+        raise DataError(f"threads must be >= 1, got {threads!r}")
+    if workers is not None and int(workers) < 1:
+        raise DataError(f"workers must be >= 1, got {workers!r}")
+    if not (cache_mb > 0):
+        raise DataError(f"cache must be > 0 MB, got {cache_mb!r}")
+    if d.warped and (workers or scheduler):
+        raise DataError(f"DEM {dem} is geographic: --workers/--scheduler need a projected DEM read by blocks "
+                        "(warp it to a projected CRS first)")
+    cluster = None
+    if d.warped:  # a geographic DEM is warped window by window
+        grid = d.grids_for_features(trace_boxes(tr), margin)
+        runner = None
+    else:  # only the DEM blocks under the traces are read, each once
+        d.window_for(tr.bounds(), margin)  # one clear message when the traces miss the DEM
+        runner = None
+        if workers or scheduler:
+            from ..io.distributed import DaskRunner
+
+            cluster = runner = DaskRunner(workers=workers, scheduler=scheduler)
+        elif threads and int(threads) > 1:
+            from ..core.raster import ThreadRunner
+
+            runner = ThreadRunner(int(threads))
+        grid = d.block_raster(margin, cache_mb=cache_mb, runner=runner)
+    try:
+        step = steps.trace_planes(ids, tr, grid, spacing_m=spacing_m, sigma_xy_m=sigma_xy_m,
+                                  sigma_z_m=sigma_z_m, draws=draws, seed=seed, window_m=window_m,
+                                  progress=progress)
+    finally:
+        if cluster is not None:
+            cluster.close()
+    if not d.warped:
+        step.summary["dem_blocks_read"] = int(grid.stats["blocks_read"])
     step.warnings = lyr.skipped + step.warnings
     params = {"dem": dem, "traces": traces, "layer": layer, "id_field": id_field, "band": band,
               "z_factor": z_factor, "spacing_m": spacing_m or d.cell_size, "sigma_xy_m": sigma_xy_m,
