@@ -3,8 +3,7 @@ from __future__ import annotations
 
 import time
 
-from .common import add_report_options, report
-from .stress_inversion import add_station_options
+from .common import add_station_options, add_report_options, report
 
 DESCRIPTION = (
     "Andersonian check of faults with known slip. For a friction coefficient mu (default 0.6, Byerlee "

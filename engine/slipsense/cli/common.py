@@ -79,3 +79,34 @@ def report(args, step, out, started):
     else:
         parts = [f"{k}: {v}" for k, v in summary.items() if k not in ("seconds",)]
         print("; ".join(parts))
+
+
+def add_station_options(p, group="one inversion per value of this field, e.g. a deformation phase (default: all data)", fault_field=False):
+    """Options naming the fault-slip fields (fault-slip, stress-inversion, anderson).
+
+    ``group``: a help text for ``--group-field`` (False: no such option)."""
+    p.add_argument("--stations", required=True, metavar="VECTOR", help="point layer of fault-slip stations")
+    p.add_argument("--layer", help="layer name in VECTOR")
+    p.add_argument("--id-field", metavar="FIELD", help="station identifier field (default: feature id)")
+    p.add_argument("--dip-dir-field", default="dip_dir", metavar="FIELD",
+                   help="fault dip direction, degrees 0-360 (default dip_dir)")
+    p.add_argument("--dip-field", default="dip", metavar="FIELD", help="fault dip, degrees 0-90 (default dip)")
+    p.add_argument("--trend-field", metavar="FIELD", help="slickenline trend, degrees (with --plunge-field)")
+    p.add_argument("--plunge-field", metavar="FIELD",
+                   help="slickenline plunge, degrees 0-90 down (an axis: the sense picks its end)")
+    p.add_argument("--rake-field", metavar="FIELD",
+                   help="rake, degrees -180..180 (Aki & Richards: +90 reverse, -90 normal, 0 sinistral, 180 dextral)")
+    p.add_argument("--pitch-field", metavar="FIELD", help="field pitch of the lineation, degrees 0-90 (with --pitch-end-field)")
+    p.add_argument("--pitch-end-field", metavar="FIELD",
+                   help="strike end the pitch is measured from: compass point (N, SW, NNE, ...) or azimuth")
+    p.add_argument("--sense-field", metavar="FIELD",
+                   help="sense: normal, reverse, thrust, dextral, sinistral, 'normal-dextral', ... or the azimuth "
+                        "the hanging wall moved toward (needed with trend/plunge and pitch)")
+    p.add_argument("--misfit-tol", type=float, default=None, metavar="DEG",
+                   help="largest angle between a lineation and its plane, degrees; smaller misfits are projected "
+                        "onto the plane, larger ones rejected (default 20)")
+    if fault_field:
+        p.add_argument("--fault-field", metavar="FIELD",
+                       help="fault name copied to fault_id (default: fault_id if present)")
+    if group:
+        p.add_argument("--group-field", metavar="FIELD", help=group)
