@@ -6,9 +6,8 @@ import dataclasses
 
 import numpy as np
 
-from ..core.kinematics import slip_from_measurements
 from ..core.orientation import plane_to_normal
-from ..core.slip import SENSE_RULES, sense_words
+from ..core.slip import sense_words
 from ..core.stress import (
     ANDERSON_RULES,
     BYERLEE_FRICTION,
@@ -34,7 +33,7 @@ from ..core.stress import (
 from ..errors import DataError, InputError, SlipsenseError
 from ..tables.stress import anderson_table, slip_tendency_table, stress_axes_table, stress_misfit_table
 from .base import StepResult
-from .kinematics import _named, _numeric, group_label
+from .kinematics import group_label, group_labels, read_fault_slip
 
 __all__ = ["stress_inversion", "stress_state", "slip_tendency", "anderson", "read_fault_slip", "plane_labels",
            "PLANE_ID_FIELDS"]
@@ -56,67 +55,6 @@ def plane_labels(columns, feature_ids, id_field=None):
                 ids = [f"{i}:{group_label(w)}" for i, w in zip(ids, columns["window_no"])]
             return ids
     return [str(f) for f in feature_ids]
-
-
-def read_fault_slip(station_ids, dip_dir, dip, *, feature_ids=None, trend=None, plunge=None, rake=None,
-                    pitch=None, pitch_from=None, sense=None, labels=None, fields=None, misfit_tol_deg=None,
-                    rules=SENSE_RULES):
-    """Raw field values of fault-slip stations -> ``(ids, FaultSlip, warnings)``.
-
-    The same reading as :func:`slipsense.steps.fault_slip` (through
-    :func:`slipsense.core.kinematics.slip_from_measurements`): text that is no number, missing
-    values and lineations far off their planes are flagged per datum, never fatal.  Only data whose
-    ``status`` is ``consistent`` should enter a stress inversion.
-    """
-    raw_ids = list(station_ids)
-    n = len(raw_ids)
-    if n == 0:
-        raise DataError("no fault-slip data: the station layer is empty")
-    fallback = list(range(n)) if feature_ids is None else list(feature_ids)
-    ids = [group_label(v) or str(f) for v, f in zip(raw_ids, fallback)]
-    fields = dict(fields or {})
-    labels = [f"station {i}" for i in ids] if labels is None else [str(x) for x in labels]
-    num, text_bad = {}, {}
-    for role, values in (("dip_dir", dip_dir), ("dip", dip), ("trend", trend), ("plunge", plunge),
-                         ("rake", rake), ("pitch", pitch)):
-        arr, bad = _numeric(values, role, n)
-        num[role] = arr
-        for i, msg in bad.items():
-            text_bad.setdefault(i, (role, msg))
-    data = slip_from_measurements(
-        num["dip_dir"], num["dip"], trend=num["trend"], plunge=num["plunge"], rake=num["rake"],
-        pitch=num["pitch"], pitch_from=None if pitch_from is None else list(pitch_from),
-        sense=None if sense is None else list(sense), misfit_tol_deg=misfit_tol_deg, rules=rules,
-        strict=False)
-    status = np.array(data.status, dtype=object)
-    bad_input = np.array(data.bad_input, dtype=object)
-    for i, (role, msg) in text_bad.items():
-        status[i] = "rejected: " + msg
-        bad_input[i] = role
-    if text_bad:
-        data = dataclasses.replace(data, status=status, bad_input=bad_input)
-    warnings = []
-    for i in range(n):
-        st = status[i]
-        if st == "consistent":
-            continue
-        if st.startswith("rejected: "):
-            warnings.append(f"{labels[i]}: {_named(st[len('rejected: '):], bad_input[i], fields)}; datum not used")
-        else:
-            warnings.append(f"{labels[i]}: {st}; datum not used")
-    return ids, data, warnings
-
-
-def _groups(group_values, n, labels, fields, warnings):
-    if group_values is None:
-        return ["all"] * n
-    glabels = [group_label(v) for v in group_values]
-    if len(glabels) != n:
-        raise InputError(f"group values: {len(glabels)} for {n} stations")
-    for i, g in enumerate(glabels):
-        if g is None:
-            warnings.append(f"{labels[i]}: field {fields.get('group', 'group')!r} is empty; the datum belongs to no group")
-    return glabels
 
 
 def stress_inversion(station_ids, dip_dir, dip, *, feature_ids=None, trend=None, plunge=None, rake=None,
@@ -153,7 +91,7 @@ def stress_inversion(station_ids, dip_dir, dip, *, feature_ids=None, trend=None,
         pitch_from=pitch_from, sense=sense, labels=labels, fields=fields, misfit_tol_deg=misfit_tol_deg)
     n = len(ids)
     labels = [f"station {i}" for i in ids] if labels is None else [str(x) for x in labels]
-    glabels = _groups(group_values, n, labels, fields, warnings)
+    glabels = group_labels(group_values, n, labels, fields, warnings)
     xy = np.zeros((n, 2)) if xy is None else np.asarray(xy, dtype=float).reshape(n, 2)
     garr = np.array(["" if g is None else g for g in glabels], dtype=object)
     order = sorted({g for g in glabels if g is not None})
